@@ -1,0 +1,3 @@
+"""Placeholder: being written (see DEVELOPERS.md)."""
+
+__all__: list[str] = []
