@@ -46,7 +46,7 @@ def as_outcome(y: ArrayLike, name: str = "y") -> FloatArray:
         i = _first_bad(bad)
         seen = np.unique(arr[~np.isnan(arr)])[:6].tolist()
         raise StatsInputError(
-            f"{name} must be coded 0/1 (1 = event); got {arr[i]!r} at row {i} "
+            f"{name} must be coded 0/1 (1 = event); got {float(arr[i])!r} at row {i} "
             f"(values seen include {seen})"
         )
     return arr
