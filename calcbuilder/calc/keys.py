@@ -53,6 +53,7 @@ __all__ = [
     "load_public_key",
     "normalise_fingerprint",
     "private_key_is_encrypted",
+    "public_key_label",
     "public_key_pem",
     "raw_public_bytes",
     "save_key_pair",
@@ -312,7 +313,7 @@ class TrustedKeys:
             except SignatureError as exc:
                 problems.append(f"{exc} (this file is ignored; remove or replace it)")
                 continue
-            label = _label_from_file(path) or path.stem
+            label = public_key_label(path) or path.stem
             found.append(TrustedKey(key_fingerprint(key), label, raw_public_bytes(key), path))
         found.sort(key=lambda e: (e.name.lower(), e.key_fingerprint))
         return found, problems
@@ -340,10 +341,10 @@ def _read_key_file(path: Path, what: str) -> bytes:
                              f"({exc.strerror or exc})") from exc
 
 
-def _label_from_file(path: Path) -> str:
+def public_key_label(path: str | os.PathLike[str]) -> str:
     """The ``Name:`` line before the PEM block of a ``.pub`` file, or ''."""
     try:
-        text = path.read_text(encoding="utf-8", errors="replace")
+        text = Path(path).read_text(encoding="utf-8", errors="replace")
     except OSError:
         return ""
     for line in text.splitlines():
