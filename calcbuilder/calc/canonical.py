@@ -16,15 +16,12 @@ Consequences worth knowing
   are strings holding lone surrogates and non-JSON Python values.
 - ``-0.0`` is written ``0`` (RFC 8785), so it signs like ``0``.
 
-:func:`parse_json` reads a file strictly (UTF-8, no duplicate keys, no
-``NaN``/``Infinity`` literals) and :func:`to_file_text` writes one the way
-calcbuilder saves calculator files.
+Reading files strictly and writing them is :mod:`calcbuilder.calc.jsonio`'s job.
 """
 
 from __future__ import annotations
 
 import hashlib
-import json
 import math
 from typing import Any
 
@@ -38,9 +35,7 @@ __all__ = [
     "SIGNATURE_KEY",
     "canonical_bytes",
     "fingerprint",
-    "parse_json",
     "split_signature",
-    "to_file_text",
 ]
 
 SIGNATURE_KEY = "signature"
@@ -123,81 +118,6 @@ def split_signature(document: dict[str, Any]) -> tuple[dict[str, Any], Any | Non
                             f"found {_json_type(document)}; check that this is a calculator file")
     payload = {key: value for key, value in document.items() if key != SIGNATURE_KEY}
     return payload, document.get(SIGNATURE_KEY)
-
-
-def parse_json(data: bytes | str, source: str) -> Any:
-    """Parse JSON text strictly, for files whose content is signed.
-
-    Refuses invalid UTF-8, duplicate keys in one object (readers could
-    disagree on which one counts) and the non-standard ``NaN``/``Infinity``
-    literals. A leading UTF-8 byte-order mark is tolerated.
-
-    Parameters
-    ----------
-    data : bytes or str
-        The file content.
-    source : str
-        The file name (or other label) used in error messages.
-
-    Returns
-    -------
-    object
-        The parsed JSON value.
-
-    Raises
-    ------
-    CalcFileError
-        One message naming ``source``, the place and the rule broken.
-    """
-    if isinstance(data, bytes):
-        try:
-            data = data.decode("utf-8")
-        except UnicodeDecodeError as exc:
-            raise CalcFileError(f"{source}: not UTF-8 text (bad byte at offset {exc.start}); "
-                                "the file is damaged or not a calculator file") from exc
-    text = data.removeprefix("\ufeff")
-    try:
-        return json.loads(text, object_pairs_hook=_no_duplicates, parse_constant=_no_constant)
-    except json.JSONDecodeError as exc:
-        raise CalcFileError(f"{source}: not valid JSON at line {exc.lineno} column {exc.colno} "
-                            f"({exc.msg}); the file is damaged or was edited by hand") from exc
-    except _StrictJSONError as exc:
-        raise CalcFileError(f"{source}: {exc}") from exc
-    except (RecursionError, ValueError) as exc:
-        raise CalcFileError(f"{source}: cannot be read as JSON ({exc}); "
-                            "the file is damaged or not a calculator file") from exc
-
-
-def to_file_text(document: dict[str, Any]) -> str:
-    """The text calcbuilder writes for a calculator file.
-
-    Two-space indentation, non-ASCII characters as themselves (the file is
-    UTF-8), member order kept, and a trailing newline. Floats are written with
-    the shortest digits that read back to the same double, so saving and
-    re-reading never changes a value (or the signature).
-    """
-    return json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
-
-
-class _StrictJSONError(ValueError):
-    """Valid-looking JSON that breaks one of our stricter rules."""
-
-
-def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
-    """``object_pairs_hook`` refusing duplicate keys."""
-    result: dict[str, Any] = {}
-    for key, value in pairs:
-        if key in result:
-            raise _StrictJSONError(f"the key {key!r} appears twice in one object; "
-                                   "a calculator file must name each member once")
-        result[key] = value
-    return result
-
-
-def _no_constant(name: str) -> Any:
-    """``parse_constant`` refusing ``NaN``, ``Infinity`` and ``-Infinity``."""
-    raise _StrictJSONError(f"{name} is not a JSON number; write a finite number "
-                           "(or leave the field out)")
 
 
 def _uncanonical_values(root: Any) -> Problems:

@@ -180,10 +180,10 @@ def load_private_key(path: str | os.PathLike[str],
     where = Path(path)
     data = _read_key_file(where, "private key")
     if b"PRIVATE KEY-----" not in data:
-        hint = (" it is a public key; signing needs the private .key file"
-                if b"PUBLIC KEY-----" in data else "")
-        raise SignatureError(f"{where}: not a PEM private key;{hint or ' give the .key file'} "
-                             "written by 'calcbuilder keys new'")
+        hint = ("this is a public key, but signing needs the private .key file"
+                if b"PUBLIC KEY-----" in data else "not a PEM private key")
+        raise SignatureError(f"{where}: {hint}; give the .key file written by "
+                             "'calcbuilder keys new'")
     encrypted = _ENCRYPTED_MARK in data
     if encrypted and passphrase is None:
         raise SignatureError(f"{where}: the private key is protected by a passphrase; "

@@ -28,7 +28,14 @@ from ..errors import SignatureError
 from .canonical import SIGNATURE_KEY, canonical_bytes, split_signature
 from .keys import TrustedKeys, key_fingerprint, raw_public_bytes
 
-__all__ = ["ALGORITHM", "TrustState", "Verification", "sign_document", "verify_document"]
+__all__ = [
+    "ALGORITHM",
+    "TrustState",
+    "TrustedKeys",  # re-exported for callers of verify_document
+    "Verification",
+    "sign_document",
+    "verify_document",
+]
 
 ALGORITHM = "ed25519"
 _FIELDS = ("algorithm", "public_key", "key_fingerprint", "signed_at", "value")

@@ -16,7 +16,8 @@ from pathlib import Path
 from typing import Any
 
 from ..calc.atomic import atomic_write_text
-from ..calc.canonical import parse_json, split_signature, to_file_text
+from ..calc.canonical import split_signature
+from ..calc.jsonio import dumps_pretty, read_json_file
 from ..calc.keys import (
     DEFAULT_KEY_NAME,
     UNENCRYPTED_WARNING,
@@ -129,7 +130,7 @@ def _cmd_new(args: argparse.Namespace) -> int:
     print(f"Created a signing key pair in {args.directory}:")
     print(f"  private key: {files.private_key}  (keep it secret; it signs calculators)")
     print(f"  public key:  {files.public_key}  (give it to clinics: "
-          f"calcbuilder keys trust {files.public_key.name})")
+          f"calcbuilder keys trust {files.public_key})")
     print(f"key fingerprint: {files.key_fingerprint}")
     return 0
 
@@ -202,7 +203,7 @@ def _cmd_sign(args: argparse.Namespace) -> int:
     private_key = _load_signing_key(args.key, args.passphrase_file)
     _, old = split_signature(document)
     signed = sign_document(document, private_key)
-    atomic_write_text(args.output, to_file_text(signed))
+    atomic_write_text(args.output, dumps_pretty(signed))
     result = verify_document(_read_document(args.output), None)
     if result.state is not TrustState.UNKNOWN_SIGNER:  # defensive: read-back check
         raise SignatureError(f"{args.output}: the written file does not verify "
@@ -221,15 +222,10 @@ def _cmd_sign(args: argparse.Namespace) -> int:
 
 
 def _read_document(path: Path) -> dict[str, Any]:
-    """Read and parse a calculator file; refuse anything but a JSON object."""
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise CalcFileError(f"{path}: cannot read the file ({exc.strerror or exc}); "
-                            "check the path") from exc
-    document = parse_json(data, str(path))
+    """Read and strictly parse a calculator file; refuse anything but a JSON object."""
+    document = read_json_file(path)
     if not isinstance(document, dict):
-        raise CalcFileError(f"{path}: a calculator file must be a JSON object ({{...}}); "
+        raise CalcFileError(f"calculator file {path}: must be a JSON object ({{...}}); "
                             "check that this is a calculator file")
     return document
 
