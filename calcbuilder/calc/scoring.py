@@ -1,0 +1,239 @@
+"""Vectorised scoring: risk, linear predictor, interval and contributions for many patients.
+
+FORMAT.md ("Linear predictor, risk and interval") is the contract:
+
+* logistic: ``eta = intercept + X beta``, ``risk = 1 / (1 + exp(-eta))``;
+* survival at horizon: ``lp_c = (X - centre) beta``, ``eta = ln(-ln S0) + lp_c``,
+  ``risk = 1 - exp(-exp(eta)) = 1 - S0 ** exp(lp_c)``;
+* recalibration: ``eta' = a + b * eta``;
+* interval: ``eta' +/- z * sqrt(x' V x) * |b|``, back-transformed (methods.md 9.1,
+  9.2), with ``x = [1, X]`` (logistic) or ``X - centre`` (survival, baseline
+  survival treated as fixed);
+* contribution of an input: ``sum(coef * column)`` over the columns of its
+  terms (survival: ``coef * (column - centre)``); a product term is split half
+  to each of its two factor terms' inputs.
+
+Values are in the canonical unit, one array per input (see :func:`score`).
+Imports only numpy and calcbuilder.calc at module level (clinic start-up path).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..errors import CalcbuilderError
+from ._values import prepare_values
+from .model import ModelSpec, Product
+from .transforms import product_columns, term_columns
+
+__all__ = ["Z95", "Score", "design_matrix", "score", "z_value"]
+
+#: Standard normal 0.975 quantile (the 95% two-sided multiplier).
+Z95 = 1.959963984540054
+_CHUNK = 1 << 16
+
+
+@dataclass(frozen=True, eq=False)
+class Score:
+    """Scores of ``n`` patients (read-only arrays of length ``n``).
+
+    Attributes
+    ----------
+    risk : ndarray
+        Predicted risk at the horizon.
+    eta : ndarray
+        The scale the interval is built on, after recalibration: logit
+        (logistic) or complementary log-log (survival at horizon).
+    linear_predictor : ndarray
+        Before recalibration: ``intercept + X beta`` (logistic) or the centred
+        ``(X - centre) beta`` (survival).
+    low, high : ndarray
+        Interval limits on the risk scale; NaN when ``interval_available`` is False.
+    contributions : mapping
+        Input id -> contribution to the linear predictor (see module notes);
+        they sum to ``linear_predictor - intercept`` (logistic) or to
+        ``linear_predictor`` (survival).
+    level : float
+        Coverage of the interval, e.g. 0.95.
+    interval_available : bool
+        False when the model has no covariance matrix.
+    interval_note : str
+        One sentence saying how the interval was made and what it leaves out.
+    """
+
+    risk: np.ndarray
+    eta: np.ndarray
+    linear_predictor: np.ndarray
+    low: np.ndarray
+    high: np.ndarray
+    contributions: Mapping[str, np.ndarray]
+    level: float
+    interval_available: bool
+    interval_note: str
+
+
+def z_value(level: float) -> float:
+    """Two-sided standard normal multiplier for coverage ``level`` (0 < level < 1)."""
+    if not 0 < level < 1:
+        raise CalcbuilderError(f"level: must be strictly between 0 and 1 (got {level!r})")
+    if level == 0.95:
+        return Z95
+    from statistics import NormalDist
+
+    return NormalDist().inv_cdf(0.5 + level / 2)
+
+
+def _build(model: ModelSpec, prepared: Mapping[str, Any], n: int) -> np.ndarray:
+    X = np.empty((n, model.n_columns))
+    where = dict(zip((t.name for t in model.terms), model.column_slices, strict=True))
+    for term, cols in zip(model.terms, model.column_slices, strict=True):
+        t = term.transform
+        if isinstance(t, Product):
+            X[:, cols] = product_columns(X[:, where[t.of[0]]], X[:, where[t.of[1]]])
+        else:
+            X[:, cols] = term_columns(term, prepared[str(term.input)])
+    return X
+
+
+def design_matrix(model: ModelSpec, values: Mapping[str, Any]) -> np.ndarray:
+    """The ``(n, n_columns)`` term columns in coefficient order (no intercept, not centred).
+
+    Parameters
+    ----------
+    model : ModelSpec
+    values : mapping
+        Input id -> array of length n (number: canonical unit; yes_no: bool or
+        0/1; choice: the choice values as text). Inputs the model does not read
+        are ignored.
+
+    Raises
+    ------
+    InputValueError
+        A value is missing, of the wrong type, not finite, not a known choice,
+        or outside a transform's domain; the message names the input or term.
+    """
+    n, prepared = prepare_values(model, values)
+    return _build(model, prepared, n)
+
+
+def _coefficients(model: ModelSpec) -> np.ndarray:
+    return np.array([c for t in model.terms for c in t.coefficients], dtype=float)
+
+
+def _contributions(model: ModelSpec, X: np.ndarray, beta: np.ndarray) -> dict[str, np.ndarray]:
+    out = {input_id: np.zeros(X.shape[0]) for input_id in model.inputs_read}
+    reads = {t.name: t.input for t in model.terms}
+    for term, cols in zip(model.terms, model.column_slices, strict=True):
+        part = X[:, cols] @ beta[cols]
+        if isinstance(term.transform, Product):
+            for factor in term.transform.of:
+                out[str(reads[factor])] += 0.5 * part
+        else:
+            out[str(term.input)] += part
+    return out
+
+
+def _variance(X: np.ndarray, V: np.ndarray, with_intercept: bool) -> np.ndarray:
+    """Row-wise ``x' V x`` with ``x = [1, X_i]`` or ``X_i``, in chunks to bound memory."""
+    Vxx = V[1:, 1:] if with_intercept else V
+    out = np.empty(X.shape[0])
+    for start in range(0, X.shape[0], _CHUNK):
+        block = X[start : start + _CHUNK]
+        q = np.einsum("ij,ij->i", block @ Vxx, block)
+        if with_intercept:
+            q += V[0, 0] + 2.0 * (block @ V[0, 1:])
+        out[start : start + _CHUNK] = q
+    return np.maximum(out, 0.0)
+
+
+def _inverse_link(family: str, eta: np.ndarray) -> np.ndarray:
+    with np.errstate(over="ignore"):
+        if family == "logistic":
+            return 1.0 / (1.0 + np.exp(-eta))
+        return -np.expm1(-np.exp(eta))
+
+
+def _note(model: ModelSpec, level: float) -> str:
+    pct = f"{level * 100:g}%"
+    if model.covariance is None:
+        return "No interval: the calculator file has no covariance matrix of the coefficients."
+    if model.family == "logistic":
+        text = (
+            f"{pct} interval by the delta method on the logit scale from the coefficient covariance"
+        )
+    else:
+        text = (
+            f"{pct} interval by the delta method on the complementary log-log scale from "
+            "the coefficient covariance; the baseline survival is treated as fixed, "
+            "so the interval is somewhat too narrow"
+        )
+    if model.recalibration is not None:
+        text += "; recalibration intercept and slope are treated as fixed"
+    return text + "."
+
+
+def _readonly(arr: np.ndarray) -> np.ndarray:
+    arr.flags.writeable = False
+    return arr
+
+
+def score(model: ModelSpec, values: Mapping[str, Any], *, level: float = 0.95) -> Score:
+    """Score many patients at once.
+
+    Parameters
+    ----------
+    model : ModelSpec
+        A model built by :meth:`ModelSpec.from_dict` (or equivalent).
+    values : mapping
+        Input id -> array of length n, canonical units (see :func:`design_matrix`).
+    level : float, default 0.95
+        Coverage of the interval.
+
+    Returns
+    -------
+    Score
+
+    Raises
+    ------
+    InputValueError
+        Bad values (see :func:`design_matrix`).
+    CalcbuilderError
+        ``level`` not strictly between 0 and 1.
+    """
+    z = z_value(level)
+    X = design_matrix(model, values)
+    beta = _coefficients(model)
+    if model.survival is not None:
+        X -= np.asarray(model.survival.centre, dtype=float)
+        lp = X @ beta
+        eta = math.log(-math.log(model.survival.baseline_survival)) + lp
+    else:
+        lp = float(model.intercept or 0.0) + X @ beta
+        eta = lp
+    slope = 1.0
+    if model.recalibration is not None:
+        slope = model.recalibration.slope
+        eta = model.recalibration.intercept + slope * eta
+    if model.covariance is not None:
+        V = np.asarray(model.covariance, dtype=float)
+        half = z * abs(slope) * np.sqrt(_variance(X, V, model.family == "logistic"))
+        low, high = _inverse_link(model.family, eta - half), _inverse_link(model.family, eta + half)
+    else:
+        low = high = np.full(X.shape[0], np.nan)
+    contributions = {k: _readonly(v) for k, v in _contributions(model, X, beta).items()}
+    return Score(
+        risk=_readonly(_inverse_link(model.family, eta)),
+        eta=_readonly(np.asarray(eta, dtype=float)),
+        linear_predictor=_readonly(lp),
+        low=_readonly(low),
+        high=_readonly(high),
+        contributions=contributions,
+        level=level,
+        interval_available=model.covariance is not None,
+        interval_note=_note(model, level),
+    )
