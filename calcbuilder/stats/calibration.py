@@ -274,7 +274,7 @@ def calibration_slope(
     if used.min() == used.max():
         raise StatsInputError(
             "risk must take at least two distinct values for the calibration slope; "
-            f"got every row equal to {used[0]!r}"
+            f"got every row equal to {float(used[0])!r}"
         )
     try:
         fit = fit_logistic(_logit(pv)[:, None], yv, weights=w)
