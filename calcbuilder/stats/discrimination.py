@@ -142,14 +142,8 @@ class _DeLong:
     auc: FloatArray
     hits10: FloatArray
     hits01: FloatArray
-
-    @property
-    def m(self) -> int:
-        return int(self.hits10.shape[1])
-
-    @property
-    def n(self) -> int:
-        return int(self.hits01.shape[1])
+    m: int
+    n: int
 
     @property
     def v10(self) -> FloatArray:
@@ -170,13 +164,6 @@ def _tie_groups(sorted_values: FloatArray) -> tuple[NDArray[np.intp], NDArray[np
     return starts, sizes
 
 
-def _exclusive_cumsum(values: FloatArray) -> FloatArray:
-    """Sum of the values strictly before each position."""
-    out = np.zeros_like(values)
-    np.cumsum(values[:-1], out=out[1:])
-    return out
-
-
 def _weighted_auc(y: FloatArray, risk: FloatArray, w: FloatArray) -> float:
     """Mann-Whitney AUC with frequency weights; equal risks form one group, ties 1/2."""
     order = np.argsort(risk)
@@ -184,7 +171,8 @@ def _weighted_auc(y: FloatArray, risk: FloatArray, w: FloatArray) -> float:
     w_event = w[order] * y[order]
     ev = np.add.reduceat(w_event, starts)
     non = np.add.reduceat(w[order] - w_event, starts)
-    wins = float(np.dot(ev, _exclusive_cumsum(non) + 0.5 * non))
+    below = np.concatenate(([0.0], np.cumsum(non)[:-1]))  # non-event weight at lower risks
+    wins = float(np.dot(ev, below + 0.5 * non))
     return wins / (float(ev.sum()) * float(non.sum()))
 
 
@@ -227,7 +215,7 @@ def _delong_components(y: FloatArray, scores_2d: FloatArray) -> _DeLong:
     for k in range(scores.shape[0]):
         _row_hits(event, scores[k], m, hits[k])
     hits10 = hits[:, event]
-    return _DeLong(auc=hits10.sum(axis=1) / (m * n), hits10=hits10, hits01=hits[:, ~event])
+    return _DeLong(hits10.sum(axis=1) / (m * n), hits10, hits[:, ~event], m, n)
 
 
 def _delong_covariance(comp: _DeLong) -> FloatArray:
@@ -303,7 +291,7 @@ def auc(y: ArrayLike, risk: ArrayLike, *, weights: ArrayLike | None = None) -> f
     Raises
     ------
     StatsInputError
-        Bad lengths, codes, risks or weights, or a single outcome class.
+        Bad lengths, codes, risks or weights, or a single outcome class (every function).
 
     Examples
     --------
@@ -313,8 +301,7 @@ def auc(y: ArrayLike, risk: ArrayLike, *, weights: ArrayLike | None = None) -> f
     0.875
     """
     yv = as_outcome(y)
-    rv = as_risk(risk, yv.size)
-    w = as_weights(weights, yv.size)
+    rv, w = as_risk(risk, yv.size), as_weights(weights, yv.size)
     require_both_classes(yv, w, "the AUC")
     return _weighted_auc(yv, rv, w)
 
@@ -382,9 +369,9 @@ def compare_auc(
     y : array_like of 0/1
         Outcome; at least 2 events and 2 non-events.
     risk_a, risk_b : array_like
-        Two predicted risks for the same rows, each in [0, 1].
+        Two predicted risks in [0, 1] for the same rows.
     level : float
-        Confidence level of the interval on the difference.
+        Confidence level of the interval on the difference, strictly inside (0, 1).
 
     Returns
     -------
@@ -494,10 +481,8 @@ def classify(y: ArrayLike, risk: ArrayLike, threshold: float) -> Classification:
     cut = _as_threshold(threshold)
     pos = rv >= cut
     event = yv == 1
-    tp = int(np.count_nonzero(pos & event))
-    fp = int(np.count_nonzero(pos & ~event))
-    fn = int(np.count_nonzero(~pos & event))
-    tn = int(np.count_nonzero(~pos & ~event))
+    tp, fp = int(np.count_nonzero(pos & event)), int(np.count_nonzero(pos & ~event))
+    fn, tn = int(np.count_nonzero(~pos & event)), int(np.count_nonzero(~pos & ~event))
     ppv = tp / (tp + fp) if tp + fp else math.nan
     npv = tn / (tn + fn) if tn + fn else math.nan
     return Classification(tp, fp, tn, fn, tp / (tp + fn), tn / (tn + fp), ppv, npv)
