@@ -163,8 +163,15 @@ def save_key_pair(directory: str | os.PathLike[str], name: str, private_key: Ed2
 
 
 def private_key_is_encrypted(path: str | os.PathLike[str]) -> bool:
-    """True if the private key file is passphrase-protected (encrypted PKCS #8 PEM)."""
-    return _ENCRYPTED_MARK in _read_key_file(Path(path), "private key")
+    """True if the private key file is passphrase-protected (encrypted PKCS #8 PEM).
+
+    Raises
+    ------
+    SignatureError
+        If the file cannot be read or holds no PEM private key.
+    """
+    where = Path(path)
+    return _ENCRYPTED_MARK in _read_private_pem(where)
 
 
 def load_private_key(path: str | os.PathLike[str],
@@ -178,12 +185,7 @@ def load_private_key(path: str | os.PathLike[str],
         passphrase missing, wrong, or given for an unencrypted key.
     """
     where = Path(path)
-    data = _read_key_file(where, "private key")
-    if b"PRIVATE KEY-----" not in data:
-        hint = ("this is a public key, but signing needs the private .key file"
-                if b"PUBLIC KEY-----" in data else "not a PEM private key")
-        raise SignatureError(f"{where}: {hint}; give the .key file written by "
-                             "'calcbuilder keys new'")
+    data = _read_private_pem(where)
     encrypted = _ENCRYPTED_MARK in data
     if encrypted and passphrase is None:
         raise SignatureError(f"{where}: the private key is protected by a passphrase; "
@@ -328,6 +330,17 @@ def _encryption(passphrase: str | bytes | None) -> serialization.KeySerializatio
         raise SignatureError("passphrase: empty; give a passphrase (or, for a demo key only, "
                              "choose no passphrase explicitly)")
     return serialization.BestAvailableEncryption(secret)
+
+
+def _read_private_pem(where: Path) -> bytes:
+    """Read a file that must hold a PEM private key."""
+    data = _read_key_file(where, "private key")
+    if b"PRIVATE KEY-----" not in data:
+        hint = ("this is a public key, but signing needs the private .key file"
+                if b"PUBLIC KEY-----" in data else "not a PEM private key")
+        raise SignatureError(f"{where}: {hint}; give the .key file written by "
+                             "'calcbuilder keys new'")
+    return data
 
 
 def _read_key_file(path: Path, what: str) -> bytes:
