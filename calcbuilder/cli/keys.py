@@ -15,9 +15,11 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
+
 from ..calc.atomic import atomic_write_text
 from ..calc.canonical import split_signature
-from ..calc.jsonio import dumps_pretty, read_json_file
+from ..calc.jsonio import dumps_pretty, parse_json, read_json_file
 from ..calc.keys import (
     DEFAULT_KEY_NAME,
     UNENCRYPTED_WARNING,
@@ -203,11 +205,13 @@ def _cmd_sign(args: argparse.Namespace) -> int:
     private_key = _load_signing_key(args.key, args.passphrase_file)
     _, old = split_signature(document)
     signed = sign_document(document, private_key)
-    atomic_write_text(args.output, dumps_pretty(signed))
-    result = verify_document(_read_document(args.output), None)
-    if result.state is not TrustState.UNKNOWN_SIGNER:  # defensive: read-back check
-        raise SignatureError(f"{args.output}: the written file does not verify "
-                             f"({result.message}); do not publish it")
+    text = dumps_pretty(signed)
+    # Defensive: the text as written must read back to a document that verifies.
+    result = verify_document(parse_json(text, source=str(args.output)), None)
+    if result.state is not TrustState.UNKNOWN_SIGNER:
+        raise SignatureError(f"{args.output}: the signed text does not verify "
+                             f"({result.message}); nothing was written")
+    atomic_write_text(args.output, text)
     section = signed["signature"]
     if args.json:
         return _print_json({"output": str(args.output), "file_fingerprint":
@@ -230,7 +234,7 @@ def _read_document(path: Path) -> dict[str, Any]:
     return document
 
 
-def _load_signing_key(path: Path, passphrase_file: Path | None) -> Any:
+def _load_signing_key(path: Path, passphrase_file: Path | None) -> Ed25519PrivateKey:
     """Load the private key, asking for its passphrase only if it is encrypted."""
     if not private_key_is_encrypted(path):
         _warn("sign", UNENCRYPTED_WARNING)
