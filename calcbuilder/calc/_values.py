@@ -74,6 +74,11 @@ def prepare_values(model: ModelSpec, values: Mapping[str, Any]) -> tuple[int, di
     return (0 if n is None else n), prepared
 
 
+def _show(value: Any) -> str:
+    """repr of a value as the user typed it (numpy scalars shown as plain Python values)."""
+    return repr(value.item() if isinstance(value, np.generic) else value)
+
+
 def _numbers(arr: np.ndarray, where: str) -> np.ndarray:
     if arr.dtype.kind == "O":
         odd = [
@@ -87,7 +92,7 @@ def _numbers(arr: np.ndarray, where: str) -> np.ndarray:
     bad = ~np.isfinite(x)
     if bad.any():
         row = int(np.flatnonzero(bad)[0])
-        raise InputValueError(f"{where}: expected a finite number (got {x[row]!r} at row {row})")
+        raise InputValueError(f"{where}: expected a finite number (got {fmt(x[row])} at row {row})")
     return x
 
 
@@ -125,6 +130,6 @@ def _choices(arr: np.ndarray, choices: tuple[str, ...], where: str) -> ChoiceCod
         row = int(np.flatnonzero(bad)[0])
         allowed = ", ".join(repr(c) for c in choices)
         raise InputValueError(
-            f"{where}: {arr[row]!r} at row {row} is not a choice (choices: {allowed})"
+            f"{where}: {_show(arr[row])} at row {row} is not a choice (choices: {allowed})"
         )
     return ChoiceCodes(codes, choices)
