@@ -18,7 +18,7 @@ from typing import Any
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
 from ..calc.atomic import atomic_write_text
-from ..calc.canonical import split_signature
+from ..calc.canonical import canonical_bytes, split_signature
 from ..calc.jsonio import dumps_pretty, parse_json, read_json_file
 from ..calc.keys import (
     DEFAULT_KEY_NAME,
@@ -196,6 +196,11 @@ def _validate_before_signing(document: dict[str, Any], source: str) -> None:
     if found != CALCULATOR_FORMAT:
         raise CalcFileError(f"{source}: format: expected {CALCULATOR_FORMAT!r}, found "
                             f"{found!r}; only calculator files can be signed")
+    try:
+        canonical_bytes(split_signature(document)[0])
+    except CalcFileError as exc:
+        raise CalcFileError(f"{source}: cannot be signed: these values have no canonical "
+                            "form (RFC 8785)", exc.problems) from exc
 
 
 def _cmd_sign(args: argparse.Namespace) -> int:

@@ -237,6 +237,27 @@ def test_sign_refuses_bad_input(content, words, keydir, passfile, capsys):
     assert not (keydir.parent / "out.json").exists()
 
 
+def test_sign_lists_values_without_canonical_form(keydir, passfile, capsys):
+    bad = keydir.parent / "big.calc.json"
+    bad.write_text('{"format": "calcbuilder-calculator", "seed": 9007199254740993}')
+    code, _, err = run(capsys, "sign", bad, "--key", keydir / "calcbuilder-signing.key",
+                       "-o", keydir.parent / "out.json", "--passphrase-file", passfile)
+    assert code == 1
+    first, problem = err.strip().splitlines()
+    assert "big.calc.json: cannot be signed" in first
+    assert "seed: integer 9007199254740993 is outside" in problem
+
+
+def test_sign_asks_for_passphrase_on_a_terminal(calc, keydir, tmp_path, monkeypatch, capsys):
+    monkeypatch.setattr(cli_keys, "_stdin_is_terminal", lambda: True)
+    monkeypatch.setattr(cli_keys.getpass, "getpass",
+                        lambda _prompt: "correct horse battery staple")
+    code, _, err = run(capsys, "sign", calc, "--key", keydir / "calcbuilder-signing.key",
+                       "-o", tmp_path / "out.json")
+    assert code == 0, err
+    assert verify_document(read_json_file(tmp_path / "out.json"), None).may_compute
+
+
 def test_sign_with_public_key_by_mistake(calc, keydir, tmp_path, capsys):
     code, _, err = run(capsys, "sign", calc, "--key", keydir / "calcbuilder-signing.pub",
                        "-o", tmp_path / "out.json")
