@@ -148,8 +148,12 @@ def save_key_pair(directory: str | os.PathLike[str], name: str, private_key: Ed2
         if path.exists():
             raise SignatureError(f"{path}: already exists; refusing to overwrite a key file. "
                                  "Choose another --name or folder.")
-    folder.mkdir(mode=0o700, parents=True, exist_ok=True)
     encryption = _encryption(passphrase)
+    try:
+        folder.mkdir(mode=0o700, parents=True, exist_ok=True)
+    except OSError as exc:
+        raise SignatureError(f"{folder}: cannot create the folder for the key files "
+                             f"({exc.strerror or exc}); choose another folder") from exc
     pem = private_key.private_bytes(serialization.Encoding.PEM,
                                     serialization.PrivateFormat.PKCS8, encryption)
     public_key = private_key.public_key()

@@ -108,8 +108,14 @@ def test_refuses_unsafe_names(tmp_path, key, name):
 
 def test_refuses_empty_passphrase(tmp_path, key):
     with pytest.raises(SignatureError, match="empty"):
-        save_key_pair(tmp_path, "k", key, passphrase=b"")
+        save_key_pair(tmp_path / "new", "k", key, passphrase=b"")
     assert list(tmp_path.iterdir()) == []
+
+
+def test_folder_that_is_a_file(tmp_path, key):
+    (tmp_path / "f").write_text("x")
+    with pytest.raises(SignatureError, match="cannot create the folder"):
+        save_key_pair(tmp_path / "f", "k", key, passphrase=PASSPHRASE)
 
 
 def test_half_pair_is_removed_when_public_key_fails(tmp_path, key, monkeypatch):
