@@ -100,6 +100,14 @@ def check_columns(
     ColumnCheck
         Canonical columns, the rows blocked and the rows' messages.
 
+    Notes
+    -----
+    Clean numeric columns cost a few numpy passes (1,000,000 rows x 9 inputs
+    in well under a second). Each *distinct* value that carries a message costs
+    one :func:`check_value` call (about 10 microseconds), so a column with very
+    many distinct out-of-range values is slower; text columns are read one
+    distinct text at a time.
+
     Raises
     ------
     InputValueError
@@ -112,7 +120,7 @@ def check_columns(
     n = _validate(specs, arrays, units)
     blocked = np.zeros(n, dtype=bool)
     extrapolated = np.zeros(n, dtype=bool)
-    row_messages: dict[int, list[Message]] = {}
+    checked: list[_Column] = []
     values: dict[str, Array] = {}
     for spec in specs:
         if spec.id not in arrays:
@@ -122,10 +130,24 @@ def check_columns(
         values[spec.id] = col.values
         blocked |= col.error
         extrapolated |= col.warned
-        for row, found in zip(col.rows.tolist(), col.messages, strict=True):
-            row_messages.setdefault(row, []).extend(found)
-    ordered = {row: tuple(row_messages[row]) for row in sorted(row_messages)}
-    return ColumnCheck(values, blocked, extrapolated, ordered)
+        checked.append(col)
+    return ColumnCheck(values, blocked, extrapolated, _by_row(checked))
+
+
+def _by_row(checked: list[_Column]) -> dict[int, tuple[Message, ...]]:
+    """Each row's messages in input order, rows ascending."""
+    with_messages = [col for col in checked if col.messages]
+    if len(with_messages) == 1:
+        only = with_messages[0]
+        return dict(zip(only.rows.tolist(), only.messages, strict=True))
+    rows = np.concatenate([col.rows for col in with_messages] or [np.zeros(0, np.intp)])
+    found = [m for col in with_messages for m in col.messages]
+    out: dict[int, tuple[Message, ...]] = {}
+    row_list = rows.tolist()
+    for k in np.argsort(rows, kind="stable").tolist():
+        row = row_list[k]
+        out[row] = out[row] + found[k] if row in out else found[k]
+    return out
 
 
 def _as_array(col: Array | Sequence[object]) -> Array:

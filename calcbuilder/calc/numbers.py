@@ -306,7 +306,11 @@ def format_number(
     if not math.isfinite(value):
         return repr(value)
     if decimals is None:
-        text = _positional(Decimal(repr(value)))
+        text = repr(value)
+        if "e" in text:
+            text = _positional(Decimal(text))
+        elif text.endswith(".0"):
+            text = "0" if text == "-0.0" else text[:-2]
     else:
         text = f"{value:.{decimals}f}"
         if float(text) == 0:

@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 import numpy as np
@@ -244,6 +245,7 @@ def _range_messages(
     return []
 
 
+@lru_cache(maxsize=256)
 def _range_in(rng: Range, conv: AltUnit, comma: bool | None) -> tuple[str, str]:
     """A canonical range written in the chosen unit.
 

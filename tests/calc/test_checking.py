@@ -1,6 +1,9 @@
 """Input checking: each rule's exact user-facing message, conversions, patients and columns."""
 
+import json
 import math
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -425,3 +428,16 @@ def test_parse_column_header_refuses_malformed_headers(header, message):
     with pytest.raises(InputValueError) as caught:
         parse_column_header(header)
     assert str(caught.value) == message
+
+
+# --- start-up path ------------------------------------------------------------------------
+
+def test_checking_imports_only_stdlib_numpy_and_our_modules():
+    probe = (
+        "import json, sys; import calcbuilder.calc.checking; "
+        "print(json.dumps(sorted(sys.modules)))"
+    )
+    out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True)
+    loaded = json.loads(out.stdout)
+    heavy = ("pandas", "scipy", "statsmodels", "matplotlib", "PySide6", "jsonschema")
+    assert [m for m in loaded if m.split(".")[0] in heavy] == []
