@@ -24,7 +24,6 @@ from .model import (
     Recalibration,
     Sqrt,
     SurvivalSpec,
-    TermSpec,
     Transform,
     Truncate,
 )
@@ -101,11 +100,14 @@ def _check_indicator(
 
 
 def _check_levels(tp: str, problems: Problems, input_id: str, info: InputInfo, t: Levels) -> None:
+    before = len(problems.items)
     if t.reference not in info.choices:
         problems.add(join(tp, "reference"), _not_a_choice(t.reference, input_id, info))
     for i, level in enumerate(t.levels):
         if level not in info.choices:
             problems.add(join(join(tp, "levels"), i), _not_a_choice(level, input_id, info))
+    if len(problems.items) > before:
+        return  # coverage is only meaningful once every named value is a choice
     for choice in info.choices:
         if choice != t.reference and choice not in t.levels:
             problems.add(
@@ -160,10 +162,8 @@ def _check_domain(
         )
 
 
-def count_message(term: TermSpec, expected: int, counts: Mapping[str, int | None]) -> str:
+def count_message(t: Transform, expected: int, got: int, counts: Mapping[str, int | None]) -> str:
     """``expected 3 numbers for an rcs term with 4 knots (got 2)`` and friends."""
-    t = term.transform
-    got = len(term.coefficients)
     noun = "number" if expected == 1 else "numbers"
     if isinstance(t, Product):
         a, b = t.of

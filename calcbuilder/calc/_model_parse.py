@@ -9,6 +9,7 @@ keep this module safe when called on unchecked data.
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
 from typing import Any
 
 from ._model_checks import (
@@ -133,54 +134,67 @@ def _intercept(raw: Mapping[str, Any], path: str, problems: Problems, family: An
     return number(raw["intercept"], where, problems)
 
 
+@dataclass(frozen=True)
+class _Draft:
+    """What could be read of one term; ``ok`` when it had no problem at all."""
+
+    name: str | None
+    transform: Transform | None
+    coefficients: tuple[float, ...] | None
+    input: str | None
+    truncate: Truncate | None
+    ok: bool
+
+    def spec(self) -> TermSpec | None:
+        if not self.ok or self.name is None or self.transform is None or self.coefficients is None:
+            return None
+        return TermSpec(self.name, self.transform, self.coefficients, self.input, self.truncate)
+
+
 def _terms(
     raw: Any, path: str, problems: Problems, infos: Mapping[str, InputInfo]
 ) -> list[TermSpec | None]:
     if not isinstance(raw, list) or not raw:
         problems.add(path, f"at least one term is required (got {raw!r})")
         return []
-    terms = [_term(item, join(path, i), problems, infos) for i, item in enumerate(raw)]
+    drafts = [_term(item, join(path, i), problems, infos) for i, item in enumerate(raw)]
     first: dict[str, int] = {}
-    for i, term in enumerate(terms):
-        if term is None:
+    for i, draft in enumerate(drafts):
+        if draft.name is None:
             continue
-        if term.name in first:
+        if draft.name in first:
             problems.add(
                 join(join(path, i), "name"),
-                f"duplicate term name {term.name!r} (also at {join(path, first[term.name])})",
+                f"duplicate term name {draft.name!r} (also at {join(path, first[draft.name])})",
             )
         else:
-            first[term.name] = i
-    for i, term in enumerate(terms):
-        if term is not None and isinstance(term.transform, Product):
-            _check_product(term.transform, i, path, problems, terms=terms, first=first)
-    _check_counts(terms, path, problems)
-    return terms
+            first[draft.name] = i
+    for i, draft in enumerate(drafts):
+        if isinstance(draft.transform, Product):
+            _check_product(draft.transform, i, path, problems, drafts=drafts, first=first)
+    _check_counts(drafts, path, problems)
+    return [d.spec() for d in drafts]
 
 
-def _term(
-    raw: Any, path: str, problems: Problems, infos: Mapping[str, InputInfo]
-) -> TermSpec | None:
+def _term(raw: Any, path: str, problems: Problems, infos: Mapping[str, InputInfo]) -> _Draft:
     if not isinstance(raw, Mapping):
         problems.add(path, f"expected an object (got {raw!r})")
-        return None
+        return _Draft(None, None, None, None, None, ok=False)
     before = len(problems.items)
     name = string(raw.get("name"), join(path, "name"), problems)
     transform = _transform(raw.get("transform"), join(path, "transform"), problems)
     truncate = _truncate(raw.get("truncate"), join(path, "truncate"), problems)
     coefficients = numbers(raw.get("coefficients"), join(path, "coefficients"), problems)
     input_id = _term_input(raw, path, problems, transform)
-    if input_id is not None and transform is not None:
-        info = infos.get(input_id)
-        if info is None:
-            problems.add(join(path, "input"), f"no input named {input_id!r}")
-        else:
-            check_term_against_input(
-                path, problems, input_id=input_id, info=info, transform=transform, truncate=truncate
-            )
-    if len(problems.items) > before or name is None or transform is None or coefficients is None:
-        return None
-    return TermSpec(name, transform, coefficients, input_id, truncate)
+    info = None if input_id is None else infos.get(input_id)
+    if input_id is not None and info is None:
+        problems.add(join(path, "input"), f"no input named {input_id!r}")
+    if input_id is not None and info is not None and transform is not None:
+        check_term_against_input(
+            path, problems, input_id=input_id, info=info, transform=transform, truncate=truncate
+        )
+    ok = len(problems.items) == before
+    return _Draft(name, transform, coefficients, input_id, truncate, ok)
 
 
 def _term_input(
@@ -312,7 +326,7 @@ def _check_product(
     terms_path: str,
     problems: Problems,
     *,
-    terms: Sequence[TermSpec | None],
+    drafts: Sequence[_Draft],
     first: Mapping[str, int],
 ) -> None:
     for k, name in enumerate(product.of):
@@ -330,7 +344,7 @@ def _check_product(
                 where,
                 f"term {name!r} is defined later ({later}); a product may only use earlier terms",
             )
-        elif isinstance(getattr(terms[j], "transform", None), Product):
+        elif isinstance(drafts[j].transform, Product):
             problems.add(
                 where,
                 f"term {name!r} is itself a product; "
@@ -338,23 +352,22 @@ def _check_product(
             )
 
 
-def _column_count(term: TermSpec, counts: Mapping[str, int | None]) -> int | None:
-    t = term.transform
-    if isinstance(t, Product):
-        a, b = counts.get(t.of[0]), counts.get(t.of[1])
-        return None if a is None or b is None else a * b
-    return t.n_columns()
-
-
-def _check_counts(terms: Sequence[TermSpec | None], path: str, problems: Problems) -> None:
+def _check_counts(drafts: Sequence[_Draft], path: str, problems: Problems) -> None:
+    """Compare each term's coefficient count with its column count, where both are known."""
     counts: dict[str, int | None] = {}
-    for i, term in enumerate(terms):
-        if term is None:
-            continue
-        expected = _column_count(term, counts)
-        counts.setdefault(term.name, expected)
-        if expected is not None and expected != len(term.coefficients):
-            message = count_message(term, expected, counts)
+    for i, draft in enumerate(drafts):
+        t = draft.transform
+        expected: int | None = None
+        if isinstance(t, Product):
+            a, b = counts.get(t.of[0]), counts.get(t.of[1])
+            expected = None if a is None or b is None else a * b
+        elif t is not None:
+            expected = t.n_columns()
+        if draft.name is not None:
+            counts.setdefault(draft.name, expected)
+        got = None if draft.coefficients is None else len(draft.coefficients)
+        if t is not None and expected is not None and got is not None and expected != got:
+            message = count_message(t, expected, got, counts)
             problems.add(join(join(path, i), "coefficients"), message)
 
 
