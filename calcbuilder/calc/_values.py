@@ -88,7 +88,7 @@ def _numbers(arr: np.ndarray, where: str) -> np.ndarray:
             raise InputValueError(f"{where}: expected numbers (got {odd[0]!r})")
     elif arr.dtype.kind not in "iuf":
         raise InputValueError(f"{where}: expected numbers (got values of type {arr.dtype})")
-    x = arr.astype(float)
+    x = np.asarray(arr, dtype=float)  # no copy for float64 input; never modified in place
     bad = ~np.isfinite(x)
     if bad.any():
         row = int(np.flatnonzero(bad)[0])

@@ -21,8 +21,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass
-from typing import Any
+from functools import cache
+from typing import Any, cast
 
 import numpy as np
 
@@ -36,6 +38,7 @@ __all__ = ["Z95", "Score", "design_matrix", "score", "z_value"]
 #: Standard normal 0.975 quantile (the 95% two-sided multiplier).
 Z95 = 1.959963984540054
 _CHUNK = 1 << 16
+_ONE_THREAD_FROM = 20_000
 
 
 @dataclass(frozen=True, eq=False)
@@ -89,7 +92,7 @@ def z_value(level: float) -> float:
 
 
 def _build(model: ModelSpec, prepared: Mapping[str, Any], n: int) -> np.ndarray:
-    X = np.empty((n, model.n_columns))
+    X = np.empty((n, model.n_columns), order="F")  # columns contiguous: term-wise work is fast
     where = dict(zip((t.name for t in model.terms), model.column_slices, strict=True))
     for term, cols in zip(model.terms, model.column_slices, strict=True):
         t = term.transform
@@ -129,13 +132,35 @@ def _contributions(model: ModelSpec, X: np.ndarray, beta: np.ndarray) -> dict[st
     out = {input_id: np.zeros(X.shape[0]) for input_id in model.inputs_read}
     reads = {t.name: t.input for t in model.terms}
     for term, cols in zip(model.terms, model.column_slices, strict=True):
-        part = X[:, cols] @ beta[cols]
+        part = np.zeros(X.shape[0])
+        for j in range(cols.start, cols.stop):  # column by column: no BLAS, contiguous
+            part += beta[j] * X[:, j]
         if isinstance(term.transform, Product):
             for factor in term.transform.of:
                 out[str(reads[factor])] += 0.5 * part
         else:
             out[str(term.input)] += part
     return out
+
+
+@cache
+def _blas_controller() -> Any:
+    from threadpoolctl import ThreadpoolController
+
+    return ThreadpoolController()
+
+
+def _one_blas_thread(n: int) -> AbstractContextManager[Any]:
+    """Hold BLAS to one thread for large batches (many threads on tall-skinny products were
+    several times slower on 2-core machines, design.md 12); no-op for small n."""
+    if n < _ONE_THREAD_FROM:
+        return nullcontext()
+    try:
+        return cast(
+            AbstractContextManager[Any], _blas_controller().limit(limits=1, user_api="blas")
+        )
+    except ImportError:  # pragma: no cover - threadpoolctl is a declared dependency
+        return nullcontext()
 
 
 def _variance(X: np.ndarray, V: np.ndarray, with_intercept: bool) -> np.ndarray:
@@ -206,7 +231,12 @@ def score(model: ModelSpec, values: Mapping[str, Any], *, level: float = 0.95) -
         ``level`` not strictly between 0 and 1.
     """
     z = z_value(level)
-    X = design_matrix(model, values)
+    n, prepared = prepare_values(model, values)
+    with _one_blas_thread(n):
+        return _score(model, _build(model, prepared, n), z, level)
+
+
+def _score(model: ModelSpec, X: np.ndarray, z: float, level: float) -> Score:
     beta = _coefficients(model)
     if model.survival is not None:
         X -= np.asarray(model.survival.centre, dtype=float)
