@@ -22,7 +22,10 @@ from calcbuilder.calc.problems import Problems
 from calcbuilder.calc.scoring import score
 
 N = 1_000_000
-CHOICES = {"smoking": ("never", "former", "current"), "anaesthesia": ("general", "neuraxial", "regional")}
+CHOICES = {
+    "smoking": ("never", "former", "current"),
+    "anaesthesia": ("general", "neuraxial", "regional"),
+}
 KINDS = {
     "age": "number", "sex": "yes_no", "creat": "number", "bmi": "number", "sbp": "number",
     "hb": "number", "diabetes": "yes_no",
@@ -49,14 +52,16 @@ def synthetic_model() -> ModelSpec:
          "transform": {"type": "levels", "reference": "never", "levels": ["former", "current"]},
          "coefficients": [0.1, 0.4]},
         {"name": "anaesthesia", "input": "anaesthesia",
-         "transform": {"type": "levels", "reference": "general", "levels": ["neuraxial", "regional"]},
+         "transform": {"type": "levels", "reference": "general",
+                       "levels": ["neuraxial", "regional"]},
          "coefficients": [-0.2, -0.1]},
         {"name": "age_sex", "transform": {"type": "product", "of": ["age", "sex"]},
          "coefficients": [0.01, -0.02, 0.03, -0.01]},
     ]  # fmt: skip
     p = 1 + sum(len(t["coefficients"]) for t in terms)
     A = rng.normal(size=(p, p)) * 0.01
-    raw = {"family": "logistic", "intercept": -4.0, "terms": terms, "covariance": (A @ A.T).tolist()}
+    V = (A @ A.T).tolist()
+    raw = {"family": "logistic", "intercept": -4.0, "terms": terms, "covariance": V}
     problems = Problems()
     model = ModelSpec.from_dict(raw, "model", problems, KINDS)
     problems.raise_if_any("synthetic model")
