@@ -14,7 +14,6 @@ from collections.abc import Sequence
 import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
-from matplotlib.ticker import MaxNLocator
 from numpy.typing import ArrayLike
 
 from . import style as st
@@ -96,13 +95,15 @@ def roc_figure(
     fig = st.new_figure(st.pick_size(size, _ROC_SIZE, style), style)
     ax = fig.add_subplot()
     st.style_axes(ax, style)
-    ax.plot([0, 1], [0, 1], label="No discrimination (AUC 0.50)", **st.IDEAL.kw(style, width=style.thin))
+    ax.plot([0, 1], [0, 1], label="No discrimination (AUC 0.50)",
+            **st.IDEAL.kw(style, width=style.thin))
     if reference is not None:
         rx = st.optional_curve(reference[0], "reference false-positive rates")
         ry = st.optional_curve(reference[1], "reference true-positive rates")
         if rx is not None and ry is not None:
             rx, ry = _roc_arrays(rx, ry, "reference")
-            ref_name = ", ".join(filter(None, [reference_label, auc_text(reference_auc, None, None)]))
+            ref_auc = auc_text(reference_auc, None, None)
+            ref_name = ", ".join(filter(None, [reference_label, ref_auc]))
             ax.plot(rx, ry, label=ref_name, **st.REFERENCE.kw(style))
     name = ", ".join(filter(None, [label, auc_text(auc, auc_low, auc_high)]))
     ax.plot(x, y, label=name, **st.MODEL.kw(style))
@@ -162,7 +163,7 @@ def _calibration_limit(*arrays: FloatArray | None, hist_top: float = 0.0) -> flo
     return st.nice_upper(top)
 
 
-def _draw_calibration(ax: Axes, style: FigureStyle, curve: tuple[FloatArray, FloatArray],
+def _draw_calibration(ax: Axes, style: FigureStyle, curve: tuple[FloatArray, FloatArray], *,
                       band: tuple[FloatArray, FloatArray] | None,
                       grouped: FloatArray | None, label: str) -> None:
     ax.plot([0, 1], [0, 1], label="Ideal (observed = predicted)",
@@ -180,24 +181,38 @@ def _draw_calibration(ax: Axes, style: FigureStyle, curve: tuple[FloatArray, Flo
                     label="Grouped: observed with 95% CI")
 
 
+def _nice_tick(top: float) -> float:
+    """The largest of 1, 2, 5, 10, 20, 50, ... not above ``top`` (at least 1)."""
+    if top < 1:
+        return 1.0
+    base = 10.0 ** np.floor(np.log10(top))
+    return float(max(m * base for m in (1.0, 2.0, 5.0) if m * base <= top))
+
+
 def _draw_histogram(ax: Axes, style: FigureStyle,
                     hist: tuple[FloatArray, FloatArray, FloatArray]) -> None:
+    """Events upwards and non-events downwards, each half scaled to its own largest bin.
+
+    The halves have their own count scales (the tick labels say so) because
+    events are usually far fewer; the shape of each distribution is the point.
+    """
     edges, events, nonevents = hist
     widths = np.diff(edges)
-    ax.bar(edges[:-1], events, width=widths, align="edge", color=st.EVENTS.face,
+    top_e, top_n = max(float(events.max()), 1.0), max(float(nonevents.max()), 1.0)
+    ax.bar(edges[:-1], events / top_e, width=widths, align="edge", color=st.EVENTS.face,
            edgecolor=st.EVENTS.edge, hatch=st.EVENTS.hatch, linewidth=style.thin * 0.6)
-    ax.bar(edges[:-1], -nonevents, width=widths, align="edge", color=st.NONEVENTS.face,
+    ax.bar(edges[:-1], -nonevents / top_n, width=widths, align="edge", color=st.NONEVENTS.face,
            edgecolor=st.NONEVENTS.edge, hatch=st.NONEVENTS.hatch, linewidth=style.thin * 0.6)
     ax.axhline(0, color=st.INK, linewidth=style.thin)
-    top = max(float(events.max()), float(nonevents.max()), 1.0) * 1.15
-    ax.set_ylim(-top, top)
-    ax.yaxis.set_major_formatter(lambda v, _pos: f"{abs(v):.0f}")
-    ax.yaxis.set_major_locator(MaxNLocator(nbins=4, integer=True, symmetric=True))
+    ax.set_ylim(-1.25, 1.25)
+    tick_e, tick_n = _nice_tick(top_e), _nice_tick(top_n)
+    ax.set_yticks([-tick_n / top_n, 0.0, tick_e / top_e],
+                  [f"{tick_n:.0f}", "0", f"{tick_e:.0f}"])
     ax.set_ylabel("Patients", **st.font(style))
-    ax.text(0.99, 0.96, "▲ with the outcome", transform=ax.transAxes, ha="right", va="top",
-            **st.font(style, "small"))
-    ax.text(0.99, 0.04, "▼ without the outcome", transform=ax.transAxes, ha="right",
-            va="bottom", **st.font(style, "small"))
+    ax.text(0.99, 0.97, f"▲ with the outcome ({events.sum():,.0f})", transform=ax.transAxes,
+            ha="right", va="top", **st.font(style, "small"))
+    ax.text(0.99, 0.03, f"▼ without the outcome ({nonevents.sum():,.0f})",
+            transform=ax.transAxes, ha="right", va="bottom", **st.font(style, "small"))
 
 
 def calibration_figure(
@@ -229,7 +244,8 @@ def calibration_figure(
         proportion and its 95% confidence limits, drawn as squares with error bars.
     histogram : (edges, events, nonevents), optional
         Counts of patients per predicted-risk bin by outcome, drawn under the
-        plot on the same x axis: with the outcome upwards, without downwards.
+        plot on the same x axis: with the outcome upwards, without downwards,
+        each half on its own count scale (labelled by its tick).
     label : str
         Legend name of the smoothed curve.
     synthetic, title, medium, size
@@ -270,7 +286,7 @@ def calibration_figure(
     else:
         ax, hax = fig.subplots(2, 1, sharex=True, height_ratios=[4, 1.15])
     st.style_axes(ax, style)
-    _draw_calibration(ax, style, (x, obs), band, grouped_arr, label)
+    _draw_calibration(ax, style, (x, obs), band=band, grouped=grouped_arr, label=label)
     ax.set_xlim(0, lim)
     ax.set_ylim(0, lim)
     if hist is None:
@@ -288,6 +304,7 @@ def calibration_figure(
         ax.tick_params(labelbottom=False)
     notes = []
     if np.any(raw != obs):
-        notes.append("Where the smoother ran below 0% or above 100%, the curve is drawn at the edge.")
+        notes.append("Where the smoother ran below 0% or above 100%, "
+                     "the curve is drawn at the edge.")
     return st.finish(fig, style, notes=notes, synthetic=synthetic, title=title)
 

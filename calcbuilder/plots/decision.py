@@ -21,7 +21,7 @@ from .style import FigureStyle, FloatArray, Medium, PlotInputError
 
 __all__ = ["decision_curve_figure"]
 
-_DC_SIZE = {"screen": (6.4, 4.6), "print": (3.6, 3.0)}
+_DC_SIZE = {"screen": (6.4, 4.6), "print": (4.6, 3.6)}
 
 
 @dataclass(frozen=True)
@@ -36,7 +36,7 @@ class _Curves:
     ref: FloatArray | None
 
 
-def _dc_inputs(thresholds: ArrayLike, model: ArrayLike, treat_all: ArrayLike,
+def _dc_inputs(thresholds: ArrayLike, model: ArrayLike, treat_all: ArrayLike, *,
                low: ArrayLike | None, high: ArrayLike | None,
                ref: ArrayLike | None) -> _Curves:
     t = st.as_proportions(thresholds, "thresholds")
@@ -53,13 +53,15 @@ def _dc_inputs(thresholds: ArrayLike, model: ArrayLike, treat_all: ArrayLike,
 
 
 def _dc_view(t: FloatArray, rng: tuple[float, float] | None, marks: Sequence[float | None],
-             show_all: bool) -> tuple[float, float]:
+             show_all: bool) -> tuple[float, float, bool]:
+    """(low, high, whether more than the reasonable range is shown)."""
     lo, hi = (float(t[0]), float(t[-1])) if rng is None or show_all else rng
     for v in marks:
         if v is not None:
             lo, hi = min(lo, v), max(hi, v)
+    wider = rng is not None and (lo < rng[0] or hi > rng[1])
     pad = 0.03 * (hi - lo) if hi > lo else 0.01
-    return max(0.0, lo - pad), min(1.0, hi + pad)
+    return max(0.0, lo - pad), min(1.0, hi + pad), wider
 
 
 def _dc_ylim(c: _Curves, lo: float, hi: float) -> tuple[float, float, float | None]:
@@ -87,36 +89,52 @@ def _dc_draw(ax: Axes, style: FigureStyle, c: _Curves, label: str, ref_label: st
     ax.plot(c.t, c.model, label=label, **st.MODEL.kw(style))
 
 
-def _vertical_mark(ax: Axes, style: FigureStyle, x: float, look: st.LineLook,
-                   text: str, y_text: float) -> None:
+def _label_side(x: float, view: tuple[float, float], other: float | None) -> str:
+    """'right' or 'left' of a vertical line: away from the plot edge and the other line."""
+    lo, hi = view
+    if x - lo < 0.15 * (hi - lo):
+        return "right"
+    if hi - x < 0.15 * (hi - lo):
+        return "left"
+    return "right" if other is not None and x >= other else "left"
+
+
+def _vertical_mark(ax: Axes, style: FigureStyle, x: float, look: st.LineLook, *,
+                   text: str, where: tuple[float, str]) -> None:
     ax.axvline(x, color=look.color, linestyle=look.linestyle, linewidth=style.thin * 1.3,
                zorder=5)
+    y_text, side = where
     ax.text(x, y_text, f" {text} ", transform=ax.get_xaxis_transform(), rotation=90,
-            ha="right", va="top" if y_text > 0.5 else "bottom", zorder=6,
+            ha="left" if side == "right" else "right",
+            va="top" if y_text > 0.5 else "bottom", zorder=6,
             bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.8, "pad": 0.5},
             **st.font(style, "small"))
 
 
 def _dc_marks(ax: Axes, style: FigureStyle, c: _Curves, threshold: float | None,
               patient_risk: float | None) -> None:
+    view = ax.get_xlim()
     if threshold is not None:
-        _vertical_mark(ax, style, threshold, st.THRESHOLD, f"Threshold {st.pct(threshold)}", 0.98)
+        side = _label_side(threshold, view, patient_risk)
+        _vertical_mark(ax, style, threshold, st.THRESHOLD,
+                       text=f"Threshold {st.pct(threshold)}", where=(0.98, side))
         if c.t[0] <= threshold <= c.t[-1]:
             ax.plot([threshold], [np.interp(threshold, c.t, c.model)], "o", color=st.MODEL.color,
                     markersize=style.marker, markeredgecolor="white", zorder=7)
     if patient_risk is not None:
+        side = _label_side(patient_risk, view, threshold)
         _vertical_mark(ax, style, patient_risk, st.PATIENT,
-                       f"This patient {st.pct(patient_risk)}", 0.02)
+                       text=f"This patient {st.pct(patient_risk)}", where=(0.04, side))
         ax.plot([patient_risk], [0.0], st.PATIENT.marker, color=st.PATIENT.color,
                 markeredgecolor="white", markersize=style.marker * 1.1,
                 transform=ax.get_xaxis_transform(), clip_on=False, zorder=8)
 
 
-def _dc_notes(c: _Curves, rng: tuple[float, float] | None, view: tuple[float, float],
+def _dc_notes(c: _Curves, rng: tuple[float, float] | None, wider: bool,
               clipped: tuple[float | None, float], threshold: float | None) -> list[str]:
     notes = []
     if rng is not None:
-        where = "Shaded" if view[0] < rng[0] or view[1] > rng[1] else "Shown"
+        where = "Shaded" if wider else "Shown"
         notes.append(f"{where}: the thresholds the authors consider reasonable, "
                      f"{st.pct(rng[0])} to {st.pct(rng[1])}.")
         if threshold is not None and not rng[0] <= threshold <= rng[1]:
@@ -125,9 +143,8 @@ def _dc_notes(c: _Curves, rng: tuple[float, float] | None, view: tuple[float, fl
         notes.append(f"No net benefit was computed at the threshold {st.pct(threshold)}.")
     t_clip, bottom = clipped
     if t_clip is not None:
-        notes.append(f"Treat all runs below the bottom of the plot from a threshold of "
-                     f"{st.pct(t_clip)}; the axis stops at {bottom * 100:.1f} per 100 patients "
-                     f"so that the other curves stay readable.".replace("-", "−"))
+        notes.append(f"Treat all continues below the plot from a threshold of {st.pct(t_clip)} "
+                     f"(axis cut at {bottom * 100:.1f} per 100 patients).".replace("-", "−"))
     return notes
 
 
@@ -178,7 +195,7 @@ def decision_curve_figure(
         Show every threshold given even when ``reasonable_range`` is set.
     synthetic, title, medium, size
         As in :func:`calcbuilder.plots.roc_figure`; default size 6.4 x 4.6 in on screen,
-        3.6 x 3.0 in in print.
+        4.6 x 3.6 in in print.
 
     Returns
     -------
@@ -197,7 +214,7 @@ def decision_curve_figure(
     Vickers AJ, van Calster B, Steyerberg EW. Diagn Progn Res 2019;3:18.
     """
     style = st.get_style(medium)
-    c = _dc_inputs(thresholds, model, treat_all, model_low, model_high, reference)
+    c = _dc_inputs(thresholds, model, treat_all, low=model_low, high=model_high, ref=reference)
     rng = None
     if reasonable_range is not None:
         rng = (st.as_proportion(reasonable_range[0], "reasonable_range low"),
@@ -206,23 +223,23 @@ def decision_curve_figure(
             raise PlotInputError(f"reasonable_range must be (low, high) with low < high; got {rng}")
     thr = None if threshold is None else st.as_proportion(threshold, "threshold")
     risk = None if patient_risk is None else st.as_proportion(patient_risk, "patient_risk")
-    view = _dc_view(c.t, rng, (thr, risk), show_all_thresholds)
-    bottom, top, t_clip = _dc_ylim(c, *view)
+    lo, hi, wider = _dc_view(c.t, rng, (thr, risk), show_all_thresholds)
+    bottom, top, t_clip = _dc_ylim(c, lo, hi)
 
     fig = st.new_figure(st.pick_size(size, _DC_SIZE, style), style)
     ax = fig.add_subplot()
     st.style_axes(ax, style)
-    if rng is not None:
+    if rng is not None and wider:
         ax.axvspan(*rng, color=st.RANGE_FILL, zorder=0, linewidth=0,
                    label="Reasonable thresholds (authors)")
     _dc_draw(ax, style, c, label, reference_label)
+    ax.set_xlim(lo, hi)
     _dc_marks(ax, style, c, thr, risk)
-    ax.set_xlim(*view)
     ax.set_ylim(bottom, top)
     st.percent_axis(ax, "x")
     st.per_hundred_axis(ax, "y")
     st.set_labels(ax, style, "Decision threshold, % risk",
                   "Net benefit per 100 patients")
-    ax.legend(loc="upper right", prop=st.legend_font(style), framealpha=0.95)
-    notes = _dc_notes(c, rng, view, (t_clip, bottom), thr)
+    st.legend_below(ax, style, ncols=3 if style.medium == "screen" else 2)
+    notes = _dc_notes(c, rng, wider, (t_clip, bottom), thr)
     return st.finish(fig, style, notes=notes, synthetic=synthetic, title=title)

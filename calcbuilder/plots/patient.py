@@ -234,7 +234,8 @@ def risk_position_figure(
     -------
     matplotlib.figure.Figure
         One axes. The part of the cohort with a lower risk than the patient is
-        hatched and darker; a note gives the percentage (:func:`cohort_percentile`).
+        dark and hatched, the rest light; direct labels give both shares and a
+        note repeats them in words (:func:`cohort_percentile`).
     """
     style = st.get_style(medium)
     e, c = _histogram(edges, counts)
@@ -246,11 +247,9 @@ def risk_position_figure(
     widths = np.diff(e)
     lower_w = np.clip(risk - e[:-1], 0.0, widths)
     ax.bar(e[:-1], c, width=widths, align="edge", color=st.NONEVENTS.face,
-           edgecolor=st.NONEVENTS.edge, linewidth=style.thin * 0.6,
-           label="Higher risk than this patient")
+           edgecolor=st.NONEVENTS.edge, linewidth=style.thin * 0.6)
     ax.bar(e[:-1], np.where(lower_w > 0, c, 0), width=lower_w, align="edge",
-           color=st.EVENTS.face, edgecolor=st.EVENTS.edge, hatch=st.EVENTS.hatch,
-           linewidth=0, label="Lower risk than this patient")
+           color=st.EVENTS.face, edgecolor=st.EVENTS.edge, hatch=st.EVENTS.hatch, linewidth=0)
     ax.axvline(risk, color=st.PATIENT.color, linestyle=st.PATIENT.linestyle,
                linewidth=style.thin * 1.4)
     ax.plot([risk], [1.0], st.PATIENT.marker, color=st.PATIENT.color, markeredgecolor="white",
@@ -258,15 +257,36 @@ def risk_position_figure(
     filled = np.flatnonzero(c > 0)
     right = st.nice_upper(max(float(e[filled[-1] + 1]), risk * 1.05))
     ax.set_xlim(min(0.0, float(e[0])), right)
-    ax.set_ylim(0, float(c.max()) * 1.18)
+    ax.set_ylim(0, float(c.max()) * 1.45)
     st.percent_axis(ax, "x")
     st.set_labels(ax, style, "Predicted risk, %", "Patients")
-    ax.text(risk, 1.0, f"  This patient {st.pct(risk)}", transform=ax.get_xaxis_transform(),
-            ha="left" if risk < 0.6 * right else "right", va="top", **st.font(style, "small"))
-    ax.legend(loc="center right", prop=st.legend_font(style), framealpha=0.95)
-    note = (f"About {below:.0f}% of the {c.sum():,.0f} patients in {cohort} "
+    _position_labels(ax, style, risk, below, right)
+    note = (f"About {_share(below)} of the {c.sum():,.0f} patients in {cohort} "
             f"had a lower predicted risk.")
     return st.finish(fig, style, notes=[note], synthetic=synthetic, title=title)
+
+
+def _share(percent: float) -> str:
+    """A percentage in words that never rounds to a false 0% or 100%."""
+    if 0 < percent < 1:
+        return "less than 1%"
+    if 99 < percent < 100:
+        return "more than 99%"
+    return f"{percent:.0f}%"
+
+
+def _position_labels(ax: Axes, style: FigureStyle, risk: float, below: float,
+                     right: float) -> None:
+    """Direct labels: the patient's risk by the diamond, the shares either side."""
+    on_left = risk > 0.6 * right
+    trans = ax.get_xaxis_transform()
+    ax.annotate(f"This patient {st.pct(risk)}", (risk, 1.0), xycoords=trans,
+                xytext=(-8 if on_left else 8, -2), textcoords="offset points",
+                ha="right" if on_left else "left", va="top", **st.font(style, "small"))
+    for text, side in ((f"◀ {_share(below)} lower", "right"),
+                       (f"{_share(100 - below)} higher ▶", "left")):
+        ax.annotate(text, (risk, 0.86), xycoords=trans, xytext=(-5 if side == "right" else 5, 0),
+                    textcoords="offset points", ha=side, va="top", **st.font(style, "small"))
 
 
 # --- contributions --------------------------------------------------------------------
@@ -274,6 +294,8 @@ def risk_position_figure(
 
 def _signed(value: float, decimals: int) -> str:
     text = f"{value:+.{decimals}f}"
+    if float(text) == 0:
+        return f"{0:.{decimals}f}"
     return text.replace("-", "−")
 
 
@@ -300,7 +322,8 @@ def contributions_figure(
     labels: Sequence[str],
     contributions: ArrayLike,
     *,
-    xlabel: str = "Contribution to the linear predictor (log-odds)",
+    xlabel: str = "Contribution to the linear predictor, log-odds",
+    directions: tuple[str, str] = ("lowers the risk", "raises the risk"),
     decimals: int = 2,
     synthetic: bool = False,
     title: str | None = None,
@@ -318,6 +341,10 @@ def contributions_figure(
         coefficient x column over the columns involving it).
     xlabel : str
         Axis label with the scale (log-odds; log hazard for survival models).
+    directions : (str, str)
+        Words over the left and right ends of the axis. The defaults read a
+        contribution against a contribution of zero; callers that centre the
+        contributions (e.g. on the cohort's average patient) may say so here.
     decimals : int
         Decimals of the value printed beside each bar.
     synthetic, title, medium, size
@@ -338,7 +365,7 @@ def contributions_figure(
         raise PlotInputError(f"labels must have one entry per contribution ({values.size}); "
                              f"got {len(labels)}")
     k = values.size
-    default = (6.4, 1.2 + 0.34 * k) if style.medium == "screen" else (3.6, 0.9 + 0.2 * k)
+    default = (6.4, 1.3 + 0.34 * k) if style.medium == "screen" else (4.6, 1.0 + 0.2 * k)
     fig = st.new_figure(st.pick_size(size, {style.medium: default}, style), style)
     ax = fig.add_subplot()
     st.style_axes(ax, style)
@@ -347,8 +374,8 @@ def contributions_figure(
     _draw_contributions(ax, style, labels, values, decimals)
     ax.set_xlabel(xlabel, **st.font(style))
     ax.xaxis.set_major_formatter(lambda v, _pos: f"{v:.3g}".replace("-", "−"))
-    ax.text(0.0, 1.01, "◀ lowers the risk", transform=ax.transAxes, ha="left", va="bottom",
+    ax.text(0.0, 1.01, f"◀ {directions[0]}", transform=ax.transAxes, ha="left", va="bottom",
             **st.font(style, "small"))
-    ax.text(1.0, 1.01, "raises the risk ▶", transform=ax.transAxes, ha="right", va="bottom",
+    ax.text(1.0, 1.01, f"{directions[1]} ▶", transform=ax.transAxes, ha="right", va="bottom",
             **st.font(style, "small"))
     return st.finish(fig, style, synthetic=synthetic, title=title)

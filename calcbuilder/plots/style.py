@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import io
 import math
-import textwrap
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from typing import Any, Literal
@@ -26,7 +25,9 @@ from typing import Any, Literal
 import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
-from matplotlib.ticker import FuncFormatter, PercentFormatter
+from matplotlib.layout_engine import ConstrainedLayoutEngine
+from matplotlib.ticker import FuncFormatter
+from matplotlib.transforms import ScaledTranslation
 from numpy.typing import ArrayLike, NDArray
 
 from ..errors import CalcbuilderError
@@ -91,7 +92,7 @@ class LineLook:
     """How one kind of curve is drawn: colour, dash pattern and marker."""
 
     color: str
-    linestyle: str | tuple[float, tuple[float, ...]]
+    linestyle: str
     marker: str
 
     def kw(self, style: FigureStyle, *, width: float | None = None) -> dict[str, Any]:
@@ -118,14 +119,15 @@ class AreaLook:
     hatch: str
 
 
-# Curves: deep blue solid, burnt orange long dashes, mid gray dash-dot, black dots.
-MODEL = LineLook("#1d4e89", "-", "o")
-REFERENCE = LineLook("#b35c14", (0, (7.0, 2.5)), "s")
-TREAT_ALL = LineLook("#6b6b6b", (0, (4.0, 1.5, 1.0, 1.5)), "^")
-TREAT_NONE = LineLook("#111111", (0, (1.0, 1.5)), "")
-IDEAL = LineLook("#8a8a8a", (0, (1.0, 2.0)), "")
-THRESHOLD = LineLook("#111111", (0, (5.0, 3.0)), "")
-PATIENT = LineLook("#9c2f22", (0, (1.0, 1.0)), "D")
+# Curves: each kind has its own named dash style (so ``Line2D.get_linestyle()`` tells
+# them apart), its own marker and a colour of its own lightness.
+MODEL = LineLook("#1d4e89", "-", "o")  # deep blue, solid, open circles
+REFERENCE = LineLook("#b35c14", "--", "s")  # burnt orange, dashes, open squares
+TREAT_ALL = LineLook("#6b6b6b", "-.", "^")  # mid grey, dash-dot, open triangles
+TREAT_NONE = LineLook("#111111", ":", "")  # near black, dots
+IDEAL = LineLook("#8a8a8a", ":", "")  # light grey, dots (never with treat none)
+THRESHOLD = LineLook("#111111", "--", "")  # vertical, black dashes, labelled
+PATIENT = LineLook("#9c2f22", ":", "D")  # vertical, dark red dots ending in a diamond
 
 # Areas: dark and densely hatched for "with the outcome", light and dotted for "without".
 EVENTS = AreaLook("#1d4e89", "#0d2747", "////")
@@ -196,13 +198,25 @@ def set_labels(ax: Axes, style: FigureStyle, xlabel: str, ylabel: str) -> None:
 def percent_axis(ax: Axes, which: str = "x") -> None:
     """Show proportions (0-1) on ``which`` axis as percentages."""
     axis = ax.xaxis if which == "x" else ax.yaxis
-    axis.set_major_formatter(PercentFormatter(xmax=1.0, decimals=None, symbol=""))
+    axis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{round(v * 100, 6):g}"))
 
 
 def per_hundred_axis(ax: Axes, which: str = "y") -> None:
     """Show values per patient on ``which`` axis as values per 100 patients."""
     axis = ax.xaxis if which == "x" else ax.yaxis
     axis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v * 100:.4g}".replace("-", "−")))
+
+
+def legend_below(ax: Axes, style: FigureStyle, *, ncols: int) -> None:
+    """The axes' legend centred under its x-axis label, outside the plot area.
+
+    Constrained layout makes room for it, so it never hides data or direct labels.
+    """
+    drop = (style.tick * 1.25 + style.label * 1.3 + 12.0) / 72.0  # ticks + label + pads, in
+    anchor = ax.transAxes + ScaledTranslation(0.0, -drop, ax.figure.dpi_scale_trans)
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), bbox_transform=anchor,
+              ncols=ncols, prop=legend_font(style), frameon=False, handlelength=2.6,
+              columnspacing=1.4)
 
 
 def pct(value: float) -> str:
@@ -213,9 +227,24 @@ def pct(value: float) -> str:
     return f"{p:.0f}%" if abs(p - round(p)) < 0.05 else f"{p:.1f}%"
 
 
-def _wrap(text: str, width_in: float, size: float) -> list[str]:
-    chars = max(20, int(width_in * 72.0 / (size * 0.56)))
-    return textwrap.wrap(text, chars) or [""]
+def _text_width_pt(text: str, size: float) -> float:
+    from matplotlib.font_manager import FontProperties
+    from matplotlib.textpath import TextToPath
+
+    prop = FontProperties(family=FONT_FAMILY, size=size)
+    return float(TextToPath().get_text_width_height_descent(text, prop, ismath=False)[0])
+
+
+def wrap_text(text: str, width_in: float, size: float) -> list[str]:
+    """Break ``text`` into lines no wider than ``width_in`` inches at ``size`` points."""
+    lines: list[str] = []
+    for word in text.split():
+        trial = f"{lines[-1]} {word}" if lines else word
+        if lines and _text_width_pt(trial, size) <= width_in * 72.0:
+            lines[-1] = trial
+        else:
+            lines.append(word)
+    return lines or [""]
 
 
 def finish(fig: Figure, style: FigureStyle, *, notes: Sequence[str] = (),
@@ -228,24 +257,27 @@ def finish(fig: Figure, style: FigureStyle, *, notes: Sequence[str] = (),
     width, height = fig.get_size_inches()
     line_h = style.small * 1.3 / 72.0 / height  # one line of small text, figure fraction
     top = 0.0
+    share_row = bool(title) and synthetic and (
+        len(title or "") * style.title * 0.62 + len(SYNTHETIC_STAMP) * style.small * 0.6
+        < width * 72.0 * 0.92)
     if synthetic:
         fig.text(0.99, 1.0 - 0.35 * line_h, SYNTHETIC_STAMP, ha="right", va="top",
                  style="italic", gid="synthetic-stamp",
                  bbox={"boxstyle": "round,pad=0.25", "facecolor": "#fff6d6", "edgecolor": INK,
                        "linewidth": style.thin}, **font(style, "small"))
-        top += 1.9 * line_h
+        top += 0.0 if share_row else 1.9 * line_h
     if title:
         fig.text(0.01, 1.0 - top - 0.2 * line_h, title, ha="left", va="top", weight="bold",
                  gid="figure-title", **font(style, "title"))
         top += (style.title / style.small) * 1.45 * line_h
-    lines = [ln for note in notes for ln in _wrap(note, width * 0.97, style.small)]
+    lines = [ln for note in notes for ln in wrap_text(note, width * 0.96, style.small)]
     bottom = (len(lines) + 0.4) * line_h if lines else 0.0
     if lines:
         fig.text(0.01, 0.25 * line_h, "\n".join(lines), ha="left", va="bottom",
                  linespacing=1.15, gid="figure-notes", **font(style, "small"))
     engine = fig.get_layout_engine()
-    if engine is not None and (top or bottom):
-        engine.set(rect=(0.0, bottom, 1.0, 1.0 - top))
+    if isinstance(engine, ConstrainedLayoutEngine) and (top or bottom):
+        engine.set(rect=(0.0, bottom, 1.0, 1.0 - top - bottom))  # left, bottom, width, height
     return fig
 
 
