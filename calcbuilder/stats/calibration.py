@@ -112,6 +112,11 @@ def _logit(p: FloatArray) -> FloatArray:
     return np.asarray(np.log(p) - np.log1p(-p), dtype=np.float64)
 
 
+def _expit(eta: FloatArray) -> FloatArray:
+    with np.errstate(over="ignore"):  # exp overflow gives 1 / inf = 0, the right limit
+        return np.asarray(1.0 / (1.0 + np.exp(-eta)), dtype=np.float64)
+
+
 def _inputs(
     y: ArrayLike, risk: ArrayLike, weights: ArrayLike | None, *, open_interval: bool
 ) -> tuple[FloatArray, FloatArray, FloatArray]:
@@ -233,7 +238,7 @@ def _offset_intercept(y: FloatArray, lp: FloatArray, w: FloatArray) -> tuple[flo
     lo, hi = base - float(lp.max()), base - float(lp.min())
     a = base - float(w @ lp / w.sum())
     for _ in range(200):
-        p = 1.0 / (1.0 + np.exp(-(lp + a)))
+        p = _expit(lp + a)
         score = float(w @ (y - p))
         info = float(w @ (p * (1.0 - p)))
         if score > 0:
@@ -243,7 +248,7 @@ def _offset_intercept(y: FloatArray, lp: FloatArray, w: FloatArray) -> tuple[flo
         step = score / info if info > 0 else math.inf
         new = a + step if lo < a + step < hi else 0.5 * (lo + hi)
         if abs(new - a) <= 1e-12 * (1.0 + abs(a)) or lo == hi:
-            p = 1.0 / (1.0 + np.exp(-(lp + new)))
+            p = _expit(lp + new)
             return new, float(w @ (p * (1.0 - p)))
         a = new
     raise ConvergenceError(  # pragma: no cover - bisection guarantees convergence
