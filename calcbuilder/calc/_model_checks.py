@@ -207,9 +207,16 @@ def check_covariance(
         problems.add(path, f"expected {size} x {size} ({what}) (got {len(matrix)} x {len(matrix)})")
         return None
     V = np.array(matrix, dtype=float)
+    if np.abs(V).max() > MAX_COVARIANCE_ENTRY:
+        problems.add(path, f"entries must be below {MAX_COVARIANCE_ENTRY:g} in magnitude "
+                     f"(got {fmt(float(np.abs(V).max()))}); check the units of the matrix")
+        return None
     if not _symmetric(V, path, problems) or not _semidefinite(V, path, problems):
         return None
     return tuple(tuple(r) for r in matrix)
+
+
+MAX_COVARIANCE_ENTRY = 1e100  # larger entries overflow x'Vx and the eigenvalue check
 
 
 def _symmetric(V: np.ndarray, path: str, problems: Problems) -> bool:

@@ -23,7 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import CalcFileError
-from .canonical import fingerprint
+from .canonical import canonical_bytes, fingerprint, split_signature
 from .evidence_sets import EvidenceSet, parse_evidence
 from .inputs import InputSpec, parse_inputs
 from .jsonio import read_json_file, write_json_file
@@ -66,6 +66,7 @@ class Calculator:
         Raises :class:`CalcFileError` listing every problem with its JSON path.
         """
         doc = upgrade(raw)
+        canonical_bytes(split_signature(doc)[0])  # refuses what cannot be fingerprinted or signed
         problems = Problems()
         check_structure(doc, problems)
         problems.raise_if_any("the calculator file does not match the format")

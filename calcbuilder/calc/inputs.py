@@ -157,7 +157,7 @@ class InputSpec:
         return next((c for c in self.choices if c.value == value), None)
 
     def to_dict(self) -> dict[str, Any]:
-        """The JSON form (``required`` always written; absent optional fields left out)."""
+        """The JSON form (defaults such as ``required: true`` and absent fields left out)."""
         out: dict[str, Any] = {"id": self.id, "label": self.label, "kind": self.kind}
         if self.unit is not None:
             out["unit"] = self.unit
@@ -169,7 +169,8 @@ class InputSpec:
                 out[key] = value.to_dict()
         if self.decimals is not None:
             out["decimals"] = self.decimals
-        out["required"] = self.required
+        if not self.required:
+            out["required"] = False
         if self.group is not None:
             out["group"] = self.group
         if self.help is not None:
