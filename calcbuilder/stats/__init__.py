@@ -21,6 +21,7 @@ from . import (
     reclassification,
     resampling,
     samplesize,
+    separation,
     splines,
 )
 from .calibration import *  # noqa: F403
@@ -37,6 +38,7 @@ from .logistic import *  # noqa: F403
 from .reclassification import *  # noqa: F403
 from .resampling import *  # noqa: F403
 from .samplesize import *  # noqa: F403
+from .separation import *  # noqa: F403
 from .splines import *  # noqa: F403
 
 __all__ = [
@@ -51,6 +53,7 @@ __all__ = [
     *reclassification.__all__,
     *logistic.__all__,
     *samplesize.__all__,
+    *separation.__all__,
     *splines.__all__,
     *resampling.__all__,
 ]
