@@ -15,30 +15,7 @@ Conventions (shared by every function here):
   risks directly and are computed for any outcome mix (no events at all among
   high predicted risks is itself miscalibration).
 
-References
-----------
-.. [1] Brier GW. Verification of forecasts expressed in terms of probability.
-       Mon Weather Rev 1950;78:1-3.
-.. [2] Steyerberg EW, Vickers AJ, Cook NR, et al. Assessing the performance of
-       prediction models: a framework for traditional and novel measures.
-       Epidemiology 2010;21(1):128-138.
-.. [3] Cox DR, Snell EJ. Analysis of Binary Data, 2nd ed. Chapman & Hall 1989.
-.. [4] Nagelkerke NJD. A note on a general definition of the coefficient of
-       determination. Biometrika 1991;78(3):691-692.
-.. [5] Cox DR. Two further applications of a model for binary regression.
-       Biometrika 1958;45:562-565.
-.. [6] Van Calster B, Nieboer D, Vergouwe Y, et al. A calibration hierarchy for risk
-       models was defined: from utopia to empirical data. J Clin Epidemiol
-       2016;74:167-176.
-.. [7] Cleveland WS. Robust locally weighted regression and smoothing scatterplots.
-       J Am Stat Assoc 1979;74(368):829-836.
-.. [8] Austin PC, Steyerberg EW. The Integrated Calibration Index (ICI) and related
-       metrics for quantifying the calibration of logistic regression models.
-       Stat Med 2019;38(21):4051-4065.
-.. [9] Hosmer DW, Lemeshow S. Goodness of fit tests for the multiple logistic
-       regression model. Commun Stat A 1980;9:1043-1069.
-.. [10] Spiegelhalter DJ. Probabilistic prediction in patient management and clinical
-        trials. Stat Med 1986;5:421-433.
+Each function names its own references.
 """
 
 from __future__ import annotations
@@ -130,6 +107,17 @@ def brier(y: ArrayLike, risk: ArrayLike, *, weights: ArrayLike | None = None) ->
 
     Accepts risks of 0 and 1 and data with a single outcome class.
 
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    weights : array (n,), optional
+        Frequency weights (a weight of 2 equals a duplicated row).
+
+    Returns
+    -------
+    float
+
     References
     ----------
     .. [1] Brier GW. Mon Weather Rev 1950;78:1-3.
@@ -144,6 +132,17 @@ def scaled_brier(y: ArrayLike, risk: ArrayLike, *, weights: ArrayLike | None = N
     ``ybar`` is the observed (weighted) event proportion, so the reference is the
     Brier score of a model predicting ``ybar`` for everyone. Needs both outcome
     classes. Can be negative (worse than that reference).
+
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    weights : array (n,), optional
+        Frequency weights (a weight of 2 equals a duplicated row).
+
+    Returns
+    -------
+    float
 
     References
     ----------
@@ -175,6 +174,17 @@ def cox_snell_r2(y: ArrayLike, risk: ArrayLike, *, weights: ArrayLike | None = N
     validation data the value can be negative. Needs both outcome classes and
     risks strictly inside (0, 1).
 
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    weights : array (n,), optional
+        Frequency weights (a weight of 2 equals a duplicated row).
+
+    Returns
+    -------
+    float
+
     References
     ----------
     .. [1] Cox DR, Snell EJ. Analysis of Binary Data, 2nd ed. 1989.
@@ -187,6 +197,17 @@ def nagelkerke_r2(y: ArrayLike, risk: ArrayLike, *, weights: ArrayLike | None = 
     """Nagelkerke R²: Cox-Snell R² divided by its maximum ``1 - exp(2 LL0 / n)`` [1]_.
 
     Same rules as :func:`cox_snell_r2` (can be negative on validation data).
+
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    weights : array (n,), optional
+        Frequency weights (a weight of 2 equals a duplicated row).
+
+    Returns
+    -------
+    float
 
     References
     ----------
@@ -211,6 +232,20 @@ def calibration_intercept(
     the offset intercept of the calibration-hierarchy papers, not the joint
     intercept of the slope model. Needs both outcome classes (otherwise the
     estimate is infinite) and risks strictly inside (0, 1).
+
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    weights : array (n,), optional
+        Frequency weights (a weight of 2 equals a duplicated row).
+    level : float
+        Confidence level of the Wald interval, strictly inside (0, 1).
+
+    Returns
+    -------
+    CalibrationEstimate
+        ``value``, ``se``, ``low``, ``high``.
 
     References
     ----------
@@ -267,6 +302,20 @@ def calibration_slope(
     and risks strictly inside (0, 1). If ``LP`` separates events from non-events
     the slope is infinite and the fit's error is raised.
 
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    weights : array (n,), optional
+        Frequency weights (a weight of 2 equals a duplicated row).
+    level : float
+        Confidence level of the Wald interval, strictly inside (0, 1).
+
+    Returns
+    -------
+    CalibrationEstimate
+        ``value``, ``se``, ``low``, ``high``.
+
     References
     ----------
     .. [1] Cox DR. Biometrika 1958;45:562-565.
@@ -319,6 +368,20 @@ def hosmer_lemeshow(
     ``[3, n]`` (``[1, n]`` when external). A group whose risks are all 0 or all 1
     has no variance and is refused. Accepts a single outcome class.
 
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    groups : int
+        Number of groups.
+    external : bool
+        ``True`` for data the model was not fitted on (``df = groups``).
+
+    Returns
+    -------
+    HosmerLemeshowResult
+        ``statistic``, ``df``, ``p_value``.
+
     References
     ----------
     .. [1] Hosmer DW, Lemeshow S. Commun Stat A 1980;9:1043-1069.
@@ -353,6 +416,16 @@ def spiegelhalter_z(y: ArrayLike, risk: ArrayLike) -> SpiegelhalterResult:
     ``z = sum (y - p)(1 - 2p) / sqrt(sum (1 - 2p)**2 p (1 - p))``. Accepts risks of
     0 and 1 and a single outcome class, but refuses data whose every risk is 0,
     0.5 or 1 (zero variance).
+
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+
+    Returns
+    -------
+    SpiegelhalterResult
+        ``statistic`` (z) and two-sided ``p_value``.
 
     References
     ----------

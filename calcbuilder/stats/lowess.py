@@ -130,6 +130,18 @@ def calibration_curve(
     a local line can leave that range near the ends. Accepts risks of 0 and 1 and
     data with a single outcome class (the curve is then constant).
 
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+    frac : float
+        Span of the smoother, ``0 < frac <= 1``.
+
+    Returns
+    -------
+    CalibrationCurve
+        ``risk`` (distinct, increasing), ``observed``, ``frac``, ``delta``.
+
     References
     ----------
     .. [1] Cleveland WS. J Am Stat Assoc 1979;74(368):829-836.
@@ -154,6 +166,16 @@ def calibration_errors(y: ArrayLike, risk: ArrayLike) -> CalibrationErrors:
     lowess with span 2/3 (R's ``lowess`` with ``iter=0``, as in rms ``val.prob``),
     not the loess (span 0.75, degree 2) of the original paper, so values differ
     from that paper's in about the third decimal. Same input rules as the curve.
+
+    Parameters
+    ----------
+    y, risk : array (n,)
+        Outcome coded 0/1 (1 = event) and predicted risks.
+
+    Returns
+    -------
+    CalibrationErrors
+        ``ici``, ``e50``, ``e90``, ``emax``.
 
     References
     ----------
