@@ -186,21 +186,13 @@ def _cmd_untrust(args: argparse.Namespace) -> int:
 # -- sign ------------------------------------------------------------------------------------
 
 def _validate_before_signing(document: dict[str, Any], source: str) -> None:
-    """Refuse to sign a document that is not a valid calculator.
+    """Refuse to sign anything but a valid calculator (schema, meaning, test vectors)."""
+    from ..calc.document import Calculator
 
-    HOOK: full validation (schema, semantic checks, test vectors) is to be
-    called here once ``calcbuilder/calc/document.py`` provides it. For now
-    only the ``format`` field is checked.
-    """
-    found = document.get("format")
-    if found != CALCULATOR_FORMAT:
-        raise CalcFileError(f"{source}: format: expected {CALCULATOR_FORMAT!r}, found "
-                            f"{found!r}; only calculator files can be signed")
     try:
-        canonical_bytes(split_signature(document)[0])
+        Calculator.from_dict(document)
     except CalcFileError as exc:
-        raise CalcFileError(f"{source}: cannot be signed: these values have no canonical "
-                            "form (RFC 8785)", exc.problems) from exc
+        raise CalcFileError(f"{source}: will not sign an invalid calculator file: {exc}") from exc
 
 
 def _cmd_sign(args: argparse.Namespace) -> int:

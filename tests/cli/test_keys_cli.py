@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from pathlib import Path
 import stat
 import sys
 
@@ -15,9 +16,11 @@ from calcbuilder.calc.signing import TrustState, verify_document
 from calcbuilder.cli import keys as cli_keys
 from calcbuilder.cli import main
 
-DOCUMENT = {"format": "calcbuilder-calculator", "format_version": 1,
-            "about": {"title": "Synthetic demo", "unit": "µmol/L"},
-            "model": {"intercept": -2.1, "coefficients": [0.0213, 1e-7]}}
+# a complete, valid calculator (statsmodels spector fit; see tests/calc/fixtures)
+DOCUMENT = json.loads(
+    (Path(__file__).parents[1] / "calc" / "fixtures" / "format-v1.calc.json").read_text("utf-8")
+)
+DOCUMENT["about"]["population"] += " (scores in µmol/L-free points)"  # a non-ASCII character
 
 
 @pytest.fixture(autouse=True)
@@ -224,7 +227,7 @@ def test_sign_encrypted_key_without_terminal(calc, keydir, tmp_path, capsys):
 @pytest.mark.parametrize(("content", "words"), [
     ("[1, 2]", "must be a JSON object"),
     ("{not json", "not valid JSON"),
-    ('{"format": "something-else"}', "format: expected 'calcbuilder-calculator'"),
+    ('{"format": "something-else"}', "format must be 'calcbuilder-calculator'"),
     ('{"format": "calcbuilder-calculator", "a": 1, "a": 2}', "appears twice"),
 ])
 def test_sign_refuses_bad_input(content, words, keydir, passfile, capsys):
@@ -239,13 +242,15 @@ def test_sign_refuses_bad_input(content, words, keydir, passfile, capsys):
 
 def test_sign_lists_values_without_canonical_form(keydir, passfile, capsys):
     bad = keydir.parent / "big.calc.json"
-    bad.write_text('{"format": "calcbuilder-calculator", "seed": 9007199254740993}')
+    doc = json.loads(json.dumps(DOCUMENT))
+    doc["about"]["seed"] = 9007199254740993
+    bad.write_text(json.dumps(doc))
     code, _, err = run(capsys, "sign", bad, "--key", keydir / "calcbuilder-signing.key",
                        "-o", keydir.parent / "out.json", "--passphrase-file", passfile)
     assert code == 1
     first, problem = err.strip().splitlines()
-    assert "big.calc.json: cannot be signed" in first
-    assert "seed: integer 9007199254740993 is outside" in problem
+    assert "big.calc.json: will not sign an invalid calculator file" in first
+    assert "about.seed: integer 9007199254740993 is outside" in problem
 
 
 def test_sign_asks_for_passphrase_on_a_terminal(calc, keydir, tmp_path, monkeypatch, capsys):
