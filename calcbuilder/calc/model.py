@@ -17,7 +17,9 @@ Decisions where FORMAT.md is silent (documented here and in the schema):
 * ``product`` may only combine earlier terms that read an input (no products of
   products), so "half to each of its two inputs" is always defined.
 * ``hinges`` knots must be strictly increasing; ``power`` exponent must not be 0.
-* A recalibration slope must be positive, and exactly 1 for method ``intercept``.
+* A recalibration slope must be positive, and exactly 1 for method ``intercept``;
+  ``dataset`` (where it was estimated) is required, ``n`` and ``events`` optional.
+* A survival model's ``linear_predictor`` is the centred ``(X - centre) beta``.
 * When the inputs' hard limits are known, ``log``, ``sqrt`` and ``power`` terms
   must be defined over the whole allowed range (after truncation).
 """
@@ -272,7 +274,8 @@ class SurvivalSpec:
 
 @dataclass(frozen=True)
 class Recalibration:
-    """``eta' = intercept + slope * eta``, with where it was estimated."""
+    """``eta' = intercept + slope * eta``, with where it was estimated (``dataset``, required
+    in the file; ``n`` and ``events`` optional)."""
 
     method: str
     intercept: float

@@ -97,3 +97,29 @@ def test_indicator_only_choice_input_still_refuses_unknown_values():
     assert s.eta[0] == pytest.approx(-1.0, abs=1e-15)
     with pytest.raises(InputValueError, match="'x' at row 0 is not a choice"):
         score(small_model(), {"age": [0.0], "sex": [0], "an": ["x"]})
+
+
+PROBE = """
+import json, sys
+import numpy as np
+import calcbuilder.calc.model, calcbuilder.calc.scoring
+from calcbuilder.calc.model import ModelSpec
+from calcbuilder.calc.problems import Problems
+raw = {"family": "logistic", "intercept": 0.0, "terms": [{"name": "a", "input": "a",
+       "transform": {"type": "log"}, "coefficients": [1.0]}], "covariance": [[1, 0], [0, 1]]}
+model = ModelSpec.from_dict(raw, "model", Problems(), {"a": "number"})
+calcbuilder.calc.scoring.score(model, {"a": np.ones(3)})
+print(json.dumps(sorted(sys.modules)))
+"""
+
+
+def test_start_up_path_loads_no_heavy_library():
+    # DEVELOPERS.md: the clinic-form path must not import pandas, statsmodels or scipy at start-up;
+    # parsing and scoring a (non-spline) model for a few patients loads numpy and calc only
+    import json
+    import subprocess
+    import sys
+
+    out = subprocess.run([sys.executable, "-c", PROBE], capture_output=True, text=True, check=True)
+    roots = {m.split(".")[0] for m in json.loads(out.stdout)}
+    assert not roots & {"scipy", "pandas", "statsmodels", "threadpoolctl", "matplotlib", "PySide6"}
