@@ -43,10 +43,8 @@ MAX_HALVINGS = 30
 """Step-halvings tried when a full Newton step lowers the objective."""
 ETA_TOL = 1e-8
 """Converged when the last step moved no row's linear predictor by more than this."""
-SUSPECT_ITER = 8
+SUSPECT_ITER = 10
 """Newton steps after which a still-moving fit is checked for separation (once)."""
-SUSPECT_ETA = 30.0
-"""|linear predictor| beyond which a fit is checked for separation (once)."""
 RANK_TOL = 1e-9
 """A column is dependent when its part orthogonal to earlier columns is below this fraction."""
 _BLOCK_ELEMENTS = 1 << 20  # rows x k^2 per block in the Firth Hessian
@@ -119,14 +117,18 @@ def fit_logistic(
     Raises
     ------
     SeparationError
-        Complete or quasi-complete separation (checked by the linear programme of
-        [4]_ when Newton fails); the message names the kind and the columns.
+        Complete or quasi-complete separation, checked by the linear programme
+        of [4]_ only when Newton fails or still moves after ``SUSPECT_ITER``
+        steps (never on ordinary fits); the message names the kind and columns.
     SingularDesignError
         A column of X is constant or a linear combination of earlier columns
         (judged on rows with positive weight), or there are fewer rows than
         coefficients.
     ConvergenceError
         No convergence in ``MAX_ITER`` steps without separation.
+    StatsInputError
+        Bad arguments (shape, coding, non-finite values, negative weights,
+        a single outcome class); ``converged`` is therefore always True.
 
     Notes
     -----
@@ -134,10 +136,13 @@ def fit_logistic(
     halved up to ``MAX_HALVINGS`` times. The fit has converged when a step
     moves no row's linear predictor by more than ``ETA_TOL`` (a scale-free
     rule: under separation the separated rows keep moving by about 1 per step).
-    The Firth step uses the modified score
-    ``sum [w_i (y_i - p_i) + h_i (1/2 - p_i)] z_i`` with hat values
-    ``h_i = w_i p_i (1 - p_i) z_i' I^-1 z_i``, the gradient of the penalised
-    log-likelihood, so frequency weights act like copied rows in both fits.
+    The Firth fit uses the modified score
+    ``U* = sum [w_i (y_i - p_i) + h_i (1/2 - p_i)] z_i`` with hat values
+    ``h_i = w_i p_i (1 - p_i) z_i' I^-1 z_i`` [3]_, the gradient of the penalised
+    log-likelihood, so frequency weights act like copied rows in both fits. Its
+    step solves with the exact Hessian of the penalised log-likelihood where
+    that is negative definite (quadratic convergence) and is the scoring step
+    ``I^-1 U*`` of [3]_ elsewhere.
 
     References
     ----------
@@ -152,7 +157,7 @@ def fit_logistic(
     --------
     >>> fit = fit_logistic([[0.0], [1.0], [2.0], [3.0]], [0, 1, 0, 1])
     >>> round(float(fit.coef[1]), 4)
-    0.6719
+    0.9082
     """
     if not isinstance(firth, bool | np.bool_):
         raise StatsInputError(f"firth must be True or False; got {firth!r}")
@@ -294,11 +299,13 @@ def _penalty_hessian(prob: _Problem, point: _Point) -> FloatArray:
 def _fit(prob: _Problem) -> LogisticFit:
     beta = np.zeros(prob.Z.shape[1])
     point = _evaluate(prob, beta)
-    checked = prob.firth  # Firth estimates exist under separation: nothing to check
+    # Firth estimates exist under separation, and an intercept-only design cannot be
+    # separated when both classes occur: nothing to check in either case
+    checked = prob.firth or prob.Z.shape[1] == 1
     for it in range(1, MAX_ITER + 1):
         if point is None:
             break
-        if not checked and (it > SUSPECT_ITER or np.max(np.abs(point.eta)) > SUSPECT_ETA):
+        if not checked and it > SUSPECT_ITER:
             _raise_if_separated(prob)
             checked = True
         step = _direction(prob, point)

@@ -35,7 +35,11 @@ SMALL_N = 100
 
 def _finite(values: ArrayLike, name: str) -> FloatArray:
     """A finite 1-D float array (a scalar becomes length 1)."""
-    arr = as_vector([values] if np.ndim(values) == 0 else values, name)
+    try:
+        scalar = np.ndim(values) == 0
+    except ValueError:  # ragged nesting: as_vector reports it
+        scalar = False
+    arr = as_vector(np.atleast_1d(values) if scalar else values, name)
     bad = ~np.isfinite(arr)
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
@@ -84,7 +88,7 @@ def rcs_knots(x: ArrayLike, n_knots: int = 4) -> FloatArray:
 
     Examples
     --------
-    >>> rcs_knots(np.arange(1.0, 201.0), 3).tolist()
+    >>> np.round(rcs_knots(np.arange(1.0, 201.0), 3), 6).tolist()
     [20.9, 100.5, 180.1]
     """
     if isinstance(n_knots, bool) or not isinstance(n_knots, int | np.integer):
