@@ -254,13 +254,19 @@ class TrustedKeys:
         It need not exist until a key is added.
     """
 
-    def __init__(self, directory: str | os.PathLike[str] | None = None) -> None:
+    def __init__(self, directory: str | os.PathLike[str] | None = None,
+                 extra_files: tuple[str | os.PathLike[str], ...] = ()) -> None:
         self.directory = Path(directory) if directory is not None else (
             config_dir() / "trusted-keys")
+        self._extra = tuple(_entry(Path(p)) for p in extra_files)
 
     def entries(self) -> list[TrustedKey]:
-        """Every trusted key, sorted by name (files that cannot be read are skipped)."""
-        return self._scan()[0]
+        """Every trusted key, sorted by name (files that cannot be read are skipped).
+
+        Keys given as ``extra_files`` (e.g. ``calcbuilder check --trust KEY``) are
+        trusted for this session only and are never written to the folder.
+        """
+        return self._scan()[0] + list(self._extra)
 
     def problems(self) -> list[str]:
         """One message per ``.pub`` file in the folder that could not be read as a key."""
@@ -319,10 +325,16 @@ class TrustedKeys:
             except SignatureError as exc:
                 problems.append(f"{exc} (this file is ignored; remove or replace it)")
                 continue
-            label = public_key_label(path) or path.stem
-            found.append(TrustedKey(key_fingerprint(key), label, raw_public_bytes(key), path))
+            found.append(_entry(path, key))
         found.sort(key=lambda e: (e.name.lower(), e.key_fingerprint))
         return found, problems
+
+
+def _entry(path: Path, key: Ed25519PublicKey | None = None) -> TrustedKey:
+    """A trusted-list entry for a ``.pub`` file (raises SignatureError if unreadable)."""
+    key = key if key is not None else load_public_key(path)
+    label = public_key_label(path) or path.stem
+    return TrustedKey(key_fingerprint(key), label, raw_public_bytes(key), path)
 
 
 def _encryption(passphrase: str | bytes | None) -> serialization.KeySerializationEncryption:
