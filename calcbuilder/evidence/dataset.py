@@ -31,7 +31,7 @@ from .errors import DataError
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["ROW_NOTE", "SUPPORTED_TYPES", "file_row", "file_sha256", "read_table"]
+__all__ = ["ROW_NOTE", "SUPPORTED_TYPES", "empty_rows", "file_row", "file_sha256", "read_table"]
 
 SUPPORTED_TYPES = {".csv": "CSV", ".parquet": "Parquet", ".xlsx": "Excel", ".xlsm": "Excel"}
 """File name endings read by :func:`read_table` (compared in lower case)."""
@@ -260,7 +260,7 @@ def _finish(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
                             f"than once (columns {seen[name] + 1} and {k + 1}); names must be "
                             "unique")
         seen[name] = k
-    empty = _empty_rows(frame)
+    empty = empty_rows(frame)
     last = len(empty)
     while last > 0 and empty[last - 1]:
         last -= 1
@@ -270,7 +270,7 @@ def _finish(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
     return frame
 
 
-def _empty_rows(frame: pd.DataFrame) -> list[bool]:
+def empty_rows(frame: pd.DataFrame) -> list[bool]:
     """True for each row whose every cell is missing or blank text."""
     blank = frame.isna() | frame.apply(lambda col: col.map(lambda v: isinstance(v, str)
                                                            and not v.strip()))
