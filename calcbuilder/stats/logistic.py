@@ -47,7 +47,6 @@ SUSPECT_ITER = 10
 """Newton steps after which a still-moving fit is checked for separation (once)."""
 RANK_TOL = 1e-9
 """A column is dependent when its part orthogonal to earlier columns is below this fraction."""
-_BLOCK_ELEMENTS = 1 << 20  # rows x k^2 per block in the Firth Hessian
 
 
 @dataclass(frozen=True)
@@ -276,24 +275,24 @@ def _penalty_hessian(prob: _Problem, point: _Point) -> FloatArray:
     """Hessian of ``0.5 log det I(b)``.
 
     With ``H = Z I^-1 Z'``, ``a = w p q (1 - 2p)`` and ``c = w p q (1 - 6pq)`` it is
-    ``0.5 Z' diag(c * diag(H)) Z - 0.5 Z' diag(a) (H o H) diag(a) Z``; the second term is
-    accumulated over row blocks as ``B B'`` with ``B[j, (r, s)] = sum_i a_i z_ij A_ri A_si``
-    so that no n x n matrix is formed.
+    ``0.5 Z' diag(c * diag(H)) Z - 0.5 Z' diag(a) (H o H) diag(a) Z``. The second term
+    is ``B B'`` with ``B[j, (r, s)] = sum_i a_i z_ij A_ri A_si`` (``H = A'A``), built
+    with k matrix products so that no n x n matrix is formed.
     """
     Z, w, p, A = prob.Z, prob.w, point.p, point.A
     assert A is not None
-    pq = p * (1 - p)
+    pq = p * expit(-point.eta)
     a = w * pq * (1 - 2 * p)
     c = w * pq * (1 - 6 * pq)
-    first = (Z * (c * np.einsum("ij,ij->j", A, A))[:, None]).T @ Z
+    At = np.ascontiguousarray(A.T)
+    first = (Z * (c * np.einsum("ij,ij->i", At, At))[:, None]).T @ Z
+    G = Z * a[:, None]
     k = Z.shape[1]
-    block = max(1, _BLOCK_ELEMENTS // (k * k))
-    B = np.zeros((k, k * k))
-    for start in range(0, Z.shape[0], block):
-        At = A[:, start : start + block].T
-        C = (At[:, :, None] * At[:, None, :]).reshape(At.shape[0], k * k)
-        B += (Z[start : start + block] * a[start : start + block, None]).T @ C
-    return np.asarray(0.5 * first - 0.5 * (B @ B.T), dtype=np.float64)
+    B = np.empty((k, k, k))
+    for r in range(k):
+        B[:, r, :] = (G * At[:, r : r + 1]).T @ At
+    flat = B.reshape(k, k * k)
+    return np.asarray(0.5 * first - 0.5 * (flat @ flat.T), dtype=np.float64)
 
 
 def _fit(prob: _Problem) -> LogisticFit:
