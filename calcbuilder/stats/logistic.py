@@ -220,8 +220,8 @@ def _singular_message(Z: FloatArray, j: int) -> str:
     names = ", ".join(used[:-1]) + " and " + used[-1] if len(used) > 1 else used[0]
     return (
         f"X column {j - 1} must not be a linear combination of other columns, but it is a "
-        f"combination of {names} (up to rounding): a duplicated or rescaled column, or indicators for "
-        "every category with no reference level; remove it"
+        f"combination of {names} (up to rounding): a duplicated or rescaled column, or "
+        "indicators for every category with no reference level; remove it"
     )
 
 

@@ -30,6 +30,7 @@ from .errors import StatsInputError
 __all__ = ["SeparationResult", "detect_separation"]
 
 _MARGIN_TOL = 1e-7  # margins (|b_j| <= 1 on the column-scaled design) at or below count as 0
+_HIGHS = {"primal_feasibility_tolerance": 1e-10, "dual_feasibility_tolerance": 1e-10}
 _SHOWN = 8  # columns named in a message before "and N more"
 _ROUNDS = 20  # LP rounds collecting the rows a quasi-complete separation predicts
 
@@ -59,6 +60,8 @@ class SeparationResult:
             return "no separation: the maximum-likelihood estimates exist"
         if self.kind == "complete":
             rows = f"all {self.n_rows} rows"
+        elif self.n_separated == 0:  # found by the one-column check only
+            rows = "some rows (the others tie on the separating boundary)"
         else:
             rows = (
                 f"{self.n_separated} of {self.n_rows} rows (the other rows tie on the "
@@ -200,12 +203,13 @@ def _max_margin(S: FloatArray, rows: NDArray[np.bool_]) -> FloatArray | None:
         b_ub=np.zeros(S.shape[0]),
         bounds=[(-1.0, 1.0)] * k,
         method="highs",
+        options=_HIGHS,
     )
     if res.status != 0 or res.x is None:  # pragma: no cover - bounded and feasible (b = 0)
         return None
     b = np.asarray(res.x, dtype=np.float64)
     margins = S @ b
-    if not (margins[rows] > _MARGIN_TOL).any() or margins.min() < -_MARGIN_TOL:
+    if not (margins[rows] > _MARGIN_TOL).any() or margins.min() < -1e-9:
         return None
     return b
 
@@ -219,7 +223,12 @@ def _complete(S: FloatArray) -> FloatArray | None:
     cost = np.zeros(k + 1)
     cost[-1] = -1.0
     res = linprog(
-        cost, A_ub=A_ub, b_ub=np.zeros(n), bounds=[(-1.0, 1.0)] * k + [(None, 1.0)], method="highs"
+        cost,
+        A_ub=A_ub,
+        b_ub=np.zeros(n),
+        bounds=[(-1.0, 1.0)] * k + [(None, 1.0)],
+        method="highs",
+        options=_HIGHS,
     )
     if res.status != 0 or res.x is None or res.x[-1] <= _MARGIN_TOL:
         return None
