@@ -125,7 +125,11 @@ def read_table(path: str | Path, *, sheet: str | None = None) -> pd.DataFrame:
         raise DataError(f"cannot read '{path.name}': the old Excel format (.xls) is not "
                         "supported; save it as an Excel workbook (.xlsx) or as CSV UTF-8")
     if suffix not in SUPPORTED_TYPES:
-        kinds = ", ".join(f"{v} ({k})" for k, v in SUPPORTED_TYPES.items())
+        grouped: dict[str, list[str]] = {}
+        for ending, kind in SUPPORTED_TYPES.items():
+            grouped.setdefault(kind, []).append(ending)
+        named = [f"{kind} ({', '.join(endings)})" for kind, endings in grouped.items()]
+        kinds = ", ".join(named[:-1]) + " or " + named[-1]
         raise DataError(f"cannot read '{path.name}': unsupported file type "
                         f"'{suffix or '(no ending)'}'; use {kinds}")
     if suffix == ".csv":
