@@ -185,7 +185,30 @@ def _cols(n: int | None) -> str:
 def check_covariance(
     raw: Any, path: str, problems: Problems, n_columns: int, with_intercept: bool
 ) -> tuple[tuple[float, ...], ...] | None:
-    """Square, right size, finite, symmetric, positive semi-definite; the matrix or None."""
+    """Square, right size, finite, bounded, symmetric, semi-definite: the matrix, or None."""
+    matrix = _square_matrix(raw, path, problems)
+    if matrix is None:
+        return None
+    size = n_columns + int(with_intercept)
+    if len(matrix) != size:
+        what = f"1 intercept + {n_columns} columns" if with_intercept else "one per column"
+        problems.add(path, f"expected {size} x {size} ({what}) (got {len(matrix)} x {len(matrix)})")
+        return None
+    V = np.array(matrix, dtype=float)
+    if np.abs(V).max() > MAX_COVARIANCE_ENTRY:
+        problems.add(
+            path,
+            f"entries must be below {MAX_COVARIANCE_ENTRY:g} in magnitude "
+            f"(got {fmt(float(np.abs(V).max()))}); check the units of the matrix",
+        )
+        return None
+    if not _symmetric(V, path, problems) or not _semidefinite(V, path, problems):
+        return None
+    return tuple(tuple(r) for r in matrix)
+
+
+def _square_matrix(raw: Any, path: str, problems: Problems) -> list[tuple[float, ...]] | None:
+    """A list of rows of finite numbers with as many numbers per row as rows, or None."""
     if not isinstance(raw, list):
         problems.add(path, f"expected a list of rows (got {raw!r})")
         return None
@@ -201,19 +224,7 @@ def check_covariance(
                 f"but there are {len(matrix)} rows)",
             )
             return None
-    size = n_columns + int(with_intercept)
-    if len(matrix) != size:
-        what = f"1 intercept + {n_columns} columns" if with_intercept else "one per column"
-        problems.add(path, f"expected {size} x {size} ({what}) (got {len(matrix)} x {len(matrix)})")
-        return None
-    V = np.array(matrix, dtype=float)
-    if np.abs(V).max() > MAX_COVARIANCE_ENTRY:
-        problems.add(path, f"entries must be below {MAX_COVARIANCE_ENTRY:g} in magnitude "
-                     f"(got {fmt(float(np.abs(V).max()))}); check the units of the matrix")
-        return None
-    if not _symmetric(V, path, problems) or not _semidefinite(V, path, problems):
-        return None
-    return tuple(tuple(r) for r in matrix)
+    return matrix
 
 
 MAX_COVARIANCE_ENTRY = 1e100  # larger entries overflow x'Vx and the eigenvalue check

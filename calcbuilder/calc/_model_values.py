@@ -25,10 +25,15 @@ def number(value: Any, path: str, problems: Problems) -> float | None:
     if isinstance(value, bool) or not isinstance(value, int | float):
         problems.add(path, f"expected a number (got {value!r})")
         return None
-    if not math.isfinite(value):
+    try:
+        result = float(value)
+    except OverflowError:  # an integer beyond the float range
+        problems.add(path, f"must be a finite number (got an integer of {len(str(value))} digits)")
+        return None
+    if not math.isfinite(result):
         problems.add(path, f"must be a finite number (got {value!r})")
         return None
-    return float(value)
+    return result
 
 
 def numbers(value: Any, path: str, problems: Problems) -> tuple[float, ...] | None:

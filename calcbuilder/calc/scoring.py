@@ -233,29 +233,55 @@ def score(model: ModelSpec, values: Mapping[str, Any], *, level: float = 0.95) -
     z = z_value(level)
     n, prepared = prepare_values(model, values)
     with _one_blas_thread(n):
-        return _score(model, _build(model, prepared, n), z, level)
+        with np.errstate(over="ignore", invalid="ignore"):  # overflow is refused by _finite
+            X = _build(model, prepared, n)
+        return _score(model, X, z, level)
+
+
+def _finite(values: np.ndarray, what: str) -> np.ndarray:
+    """Refuse a result that overflowed instead of showing 0, 1 or NaN as a risk."""
+    bad = ~np.isfinite(values)
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        raise CalcbuilderError(
+            f"{what} is not finite at row {row} (got {values[row]}): the coefficients or values "
+            "are too large to compute with; check the model's units and coefficients"
+        )
+    return values
+
+
+def _linear_predictor(model: ModelSpec, X: np.ndarray, beta: np.ndarray) -> np.ndarray:
+    """``intercept + X beta`` (logistic) or ``(X - centre) beta`` (survival; centres X in place)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        if model.survival is not None:
+            X -= np.asarray(model.survival.centre, dtype=float)
+            return _finite(X @ beta, "the linear predictor")
+        return _finite(float(model.intercept or 0.0) + X @ beta, "the linear predictor")
 
 
 def _score(model: ModelSpec, X: np.ndarray, z: float, level: float) -> Score:
     beta = _coefficients(model)
+    lp = _linear_predictor(model, X, beta)
+    eta = lp
     if model.survival is not None:
-        X -= np.asarray(model.survival.centre, dtype=float)
-        lp = X @ beta
         eta = math.log(-math.log(model.survival.baseline_survival)) + lp
-    else:
-        lp = float(model.intercept or 0.0) + X @ beta
-        eta = lp
     slope = 1.0
     if model.recalibration is not None:
         slope = model.recalibration.slope
-        eta = model.recalibration.intercept + slope * eta
+        eta = _finite(model.recalibration.intercept + slope * eta, "the recalibrated eta")
     if model.covariance is not None:
         V = np.asarray(model.covariance, dtype=float)
-        half = z * abs(slope) * np.sqrt(_variance(X, V, model.family == "logistic"))
+        with np.errstate(over="ignore", invalid="ignore"):
+            var = _finite(_variance(X, V, model.family == "logistic"), "the variance of eta")
+        half = z * abs(slope) * np.sqrt(var)
         low, high = _inverse_link(model.family, eta - half), _inverse_link(model.family, eta + half)
     else:
         low = high = np.full(X.shape[0], np.nan)
-    contributions = {k: _readonly(v) for k, v in _contributions(model, X, beta).items()}
+    with np.errstate(over="ignore", invalid="ignore"):
+        parts = _contributions(model, X, beta)
+    contributions = {
+        k: _readonly(_finite(v, f"the contribution of {k!r}")) for k, v in parts.items()
+    }
     return Score(
         risk=_readonly(_inverse_link(model.family, eta)),
         eta=_readonly(np.asarray(eta, dtype=float)),

@@ -284,6 +284,11 @@ CASES = [
         covariance=[[1.0, 0.5], [0.4, 1.0]],
         survival={**r["survival"], "centre": [60, 3600]}),
      "model.covariance: must be symmetric (row 1, column 0 is 0.4 but row 0, column 1 is 0.5)"),
+    (survival, lambda r: r.update(covariance=[[1e101]]),
+     "model.covariance: entries must be below 1e+100 in magnitude (got 1e+101); "
+     "check the units of the matrix"),
+    (logistic, lambda r: r["terms"][1]["transform"].update(shift=10**400),
+     "model.terms[1].transform.shift: must be a finite number (got an integer of 401 digits)"),
     (survival, lambda r: r.update(
         covariance=[[-0.25]]),
      "model.covariance: must be positive semi-definite (smallest eigenvalue -0.25)"),

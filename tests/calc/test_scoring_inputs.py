@@ -123,3 +123,17 @@ def test_start_up_path_loads_no_heavy_library():
     out = subprocess.run([sys.executable, "-c", PROBE], capture_output=True, text=True, check=True)
     roots = {m.split(".")[0] for m in json.loads(out.stdout)}
     assert not roots & {"scipy", "pandas", "statsmodels", "threadpoolctl", "matplotlib", "PySide6"}
+
+
+def test_overflow_is_refused_not_shown_as_a_risk():
+    # [ANALYTIC] (1e10) ** 40 = 1e400 overflows a double: the risk would print as 1.0 or NaN
+    raw = {"family": "logistic", "intercept": 0.0, "terms": [{"name": "p", "input": "v",
+           "transform": {"type": "power", "exponent": 40}, "coefficients": [1.0]}]}  # fmt: skip
+    model = build(raw, {"v": "number"})
+    assert score(model, {"v": [2.0]}).eta[0] == 2.0**40
+    with pytest.raises(CalcbuilderError) as info:
+        score(model, {"v": [2.0, 1e10]})
+    assert str(info.value) == (
+        "the linear predictor is not finite at row 1 (got inf): the coefficients or values are "
+        "too large to compute with; check the model's units and coefficients"
+    )
