@@ -7,8 +7,9 @@ Rules (documented in ``docs/recipe.md``):
   choice that never occurs: its effect cannot be estimated.
 * Warning, near-constant: one value in more than 99% of the rows used.
 * Warning, collinear: between number and yes/no inputs, a Pearson correlation
-  with ``|r| > 0.95`` (the pair is named) or a variance inflation factor above
-  10 (computed from the correlation matrix of those inputs).
+  with ``|r| > 0.95`` (the pair is named), or, for an input in no such pair, a
+  variance inflation factor above 10 (the diagonal of the inverse correlation
+  matrix of those inputs; left out when that matrix is singular).
 * Error, too few events: fewer rows in the smaller outcome class than model
   parameters + 1. Warning: fewer than 10 events (smaller class) per parameter.
 """
@@ -93,15 +94,17 @@ def collinearity_warnings(
     x = np.column_stack([values[e.id] for e in used])
     r = np.corrcoef(x, rowvar=False)
     out = []
+    paired: set[int] = set()
     for i in range(len(used)):
         for j in range(i + 1, len(used)):
             if abs(r[i, j]) > COLLINEAR_R:
+                paired |= {i, j}
                 out.append(f"columns '{used[i].column}' and '{used[j].column}' are strongly "
                            f"correlated (r = {r[i, j]:.3f}); the model will separate their "
                            "effects poorly: consider keeping only one")
     vif = _vif(r)
     for k, entry in enumerate(used):
-        if vif is not None and vif[k] > VIF_LIMIT:
+        if vif is not None and vif[k] > VIF_LIMIT and k not in paired:
             out.append(f"column '{entry.column}': variance inflation factor "
                        f"{format_number(round(float(vif[k]), 1))} (above "
                        f"{format_number(VIF_LIMIT)}): it is largely explained by the other "
