@@ -85,7 +85,7 @@ def _numbers(arr: np.ndarray, where: str) -> np.ndarray:
             v for v in arr.tolist() if isinstance(v, bool | str) or not isinstance(v, int | float)
         ]
         if odd:
-            raise InputValueError(f"{where}: expected numbers (got {odd[0]!r})")
+            raise InputValueError(f"{where}: expected numbers (got {_show(odd[0])})")
     elif arr.dtype.kind not in "iuf":
         raise InputValueError(f"{where}: expected numbers (got values of type {arr.dtype})")
     x = np.asarray(arr, dtype=float)  # no copy for float64 input; never modified in place
@@ -102,7 +102,7 @@ def _yes_no(arr: np.ndarray, where: str) -> np.ndarray:
     if arr.dtype.kind == "O":
         odd = [v for v in arr.tolist() if isinstance(v, str) or v not in (True, False)]
         if odd:
-            raise InputValueError(f"{where}: expected true/false or 0/1 (got {odd[0]!r})")
+            raise InputValueError(f"{where}: expected true/false or 0/1 (got {_show(odd[0])})")
     elif arr.dtype.kind not in "iuf":
         raise InputValueError(
             f"{where}: expected true/false or 0/1 (got values of type {arr.dtype})"
