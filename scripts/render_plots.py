@@ -2,7 +2,7 @@
 
 Usage::
 
-    .venv/bin/python scripts/render_plots.py OUTPUT_FOLDER [--dpi 110]
+    .venv/bin/python scripts/render_plots.py OUTPUT_FOLDER [--dpi 110] [--reps 120]
 
 SYNTHETIC DATA, NOT FOR CLINICAL USE. A seeded simulated cohort (about 1,500
 patients, about 12% events) is scored by a slightly miscalibrated "model" and a
@@ -143,7 +143,7 @@ def _icons_for(risk: float, **kw: Any) -> Figure:
     return plots.icon_array_figure(n, total=total, outcome="delirium", **kw)
 
 
-def figures(c: Cohort, medium: str) -> dict[str, Callable[[], Figure]]:
+def figures(c: Cohort, medium: str, reps: int = 120) -> dict[str, Callable[[], Figure]]:
     """Every figure for one medium, as name -> zero-argument builder."""
     fpr, tpr = roc(c.y, c.risk)
     ref_fpr, ref_tpr = roc(c.y, c.ref_risk)
@@ -153,7 +153,7 @@ def figures(c: Cohort, medium: str) -> dict[str, Callable[[], Figure]]:
     t = np.arange(1, 100) / 100
     nb, nb_all = net_benefit(c.y, c.risk, t)
     nb_ref, _ = net_benefit(c.y, c.ref_risk, t)
-    (cal_lo, cal_hi), (nb_lo, nb_hi) = bootstrap_bands(c, t)
+    (cal_lo, cal_hi), (nb_lo, nb_hi) = bootstrap_bands(c, t, reps)
     hist = _histograms(c)
     inside = curve_x.max() >= GRID
     kw: dict[str, Any] = {"medium": medium, "synthetic": True}
@@ -198,11 +198,13 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("folder", type=Path, help="output folder (created if missing)")
     parser.add_argument("--dpi", type=float, default=110.0, help="PNG resolution (default 110)")
+    parser.add_argument("--reps", type=int, default=120,
+                        help="bootstrap resamples for the confidence bands (default 120)")
     args = parser.parse_args(argv)
     args.folder.mkdir(parents=True, exist_ok=True)
     cohort = make_cohort()
     for medium in ("screen", "print"):
-        for name, build in figures(cohort, medium).items():
+        for name, build in figures(cohort, medium, args.reps).items():
             path = args.folder / f"{name}_{medium}.png"
             path.write_bytes(plots.figure_png_bytes(build(), dpi=args.dpi))
             print(path)

@@ -11,13 +11,20 @@ the clinic form imports it only when it first draws.
 
 from .curves import calibration_figure, roc_figure
 from .decision import decision_curve_figure
-from .patient import contributions_figure, icon_array_figure, icon_counts, risk_position_figure
+from .patient import (
+    cohort_percentile,
+    contributions_figure,
+    icon_array_figure,
+    icon_counts,
+    risk_position_figure,
+)
 from .style import SYNTHETIC_STAMP, PlotInputError, figure_png_bytes
 
 __all__ = [
     "SYNTHETIC_STAMP",
     "PlotInputError",
     "calibration_figure",
+    "cohort_percentile",
     "contributions_figure",
     "decision_curve_figure",
     "figure_png_bytes",

@@ -13,9 +13,10 @@ from collections.abc import Sequence
 
 import numpy as np
 from matplotlib.axes import Axes
-from matplotlib.collections import PatchCollection
+from matplotlib.collections import PathCollection
 from matplotlib.figure import Figure
 from matplotlib.patches import Circle, FancyBboxPatch, Patch
+from matplotlib.path import Path
 from numpy.typing import ArrayLike
 
 from . import style as st
@@ -66,11 +67,18 @@ def icon_counts(risk: float) -> tuple[int, int]:
     return math.floor(round(p * 1000, 9) + 0.5), 1000
 
 
-def _icon_patches(x: float, y: float) -> list[Circle | FancyBboxPatch]:
-    head = Circle((x + 0.5, y + 0.93), 0.19)
-    body = FancyBboxPatch((x + 0.2, y), 0.6, 0.66,
-                          boxstyle="round,pad=0,rounding_size=0.24")
-    return [head, body]
+def _person() -> Path:
+    """One person in a unit cell: a round head over a rounded body (our own drawing)."""
+    head = Circle((0.5, 0.93), 0.19)
+    body = FancyBboxPatch((0.2, 0.0), 0.6, 0.66, boxstyle="round,pad=0,rounding_size=0.24")
+    return Path.make_compound_path(
+        head.get_patch_transform().transform_path(head.get_path()), body.get_path())
+
+
+def _people(origins: list[tuple[float, float]]) -> list[Path]:
+    template = _person()
+    verts = np.asarray(template.vertices, dtype=np.float64)
+    return [Path(verts + np.asarray(origin), template.codes) for origin in origins]
 
 
 def _icon_origin(i: int, per_row: int) -> tuple[float, float]:
@@ -143,7 +151,7 @@ def icon_array_figure(
     style = st.get_style(medium)
     cols = _check_icon_args(n_affected, total, per_row)
     n = int(n_affected)
-    shapes = [_icon_patches(*_icon_origin(i, cols)) for i in range(total)]
+    shapes = _people([_icon_origin(i, cols) for i in range(total)])
     small = total > 100
     default = ((6.4, 4.0) if small else (3.8, 4.6)) if style.medium == "screen" else \
         ((3.6, 2.5) if small else (2.4, 3.0))
@@ -152,9 +160,9 @@ def icon_array_figure(
     edge_w = style.thin * (0.45 if small else 1.0)
     for look, part in ((st.AFFECTED, shapes[:n]), (st.UNAFFECTED, shapes[n:])):
         if part:
-            ax.add_collection(PatchCollection(
-                [p for icon in part for p in icon], facecolor=look.face, edgecolor=look.edge,
-                linewidth=edge_w, gid="icons-affected" if look is st.AFFECTED else "icons-other"))
+            ax.add_collection(PathCollection(
+                part, facecolor=look.face, edgecolor=look.edge, linewidth=edge_w,
+                gid="icons-affected" if look is st.AFFECTED else "icons-other"))
     x_max = cols + (cols // 10 - 1) * _BLOCK_GAP
     rows = math.ceil(total / cols)
     ax.set_xlim(-0.2, x_max + 0.2)
@@ -165,8 +173,12 @@ def icon_array_figure(
                      label=f"{n:,} with {outcome}"),
                Patch(facecolor=st.UNAFFECTED.face, edgecolor=st.UNAFFECTED.edge,
                      label=f"{total - n:,} without {outcome}")]
-    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, 0.0), ncols=2,
-              frameon=False, prop=st.legend_font(style), handlelength=1.2)
+    size_pt = st.legend_font(style)["size"]
+    one_row = sum(st.text_width_pt(str(h.get_label()), size_pt) + 3.5 * size_pt
+                  for h in handles) < fig.get_size_inches()[0] * 72.0 * 0.9
+    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, 0.0),
+              ncols=2 if one_row else 1, frameon=False, prop=st.legend_font(style),
+              handlelength=1.2)
     heading = _icon_heading(n, total) if title is None else title
     return st.finish(fig, style, synthetic=synthetic, title=heading or None)
 

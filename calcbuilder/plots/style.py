@@ -123,7 +123,7 @@ class AreaLook:
 # them apart), its own marker and a colour of its own lightness.
 MODEL = LineLook("#1d4e89", "-", "o")  # deep blue, solid, open circles
 REFERENCE = LineLook("#b35c14", "--", "s")  # burnt orange, dashes, open squares
-TREAT_ALL = LineLook("#6b6b6b", "-.", "^")  # mid grey, dash-dot, open triangles
+TREAT_ALL = LineLook("#8c8c8c", "-.", "^")  # light grey, dash-dot, open triangles
 TREAT_NONE = LineLook("#111111", ":", "")  # near black, dots
 IDEAL = LineLook("#8a8a8a", ":", "")  # light grey, dots (never with treat none)
 THRESHOLD = LineLook("#111111", "--", "")  # vertical, black dashes, labelled
@@ -227,7 +227,8 @@ def pct(value: float) -> str:
     return f"{p:.0f}%" if abs(p - round(p)) < 0.05 else f"{p:.1f}%"
 
 
-def _text_width_pt(text: str, size: float) -> float:
+def text_width_pt(text: str, size: float) -> float:
+    """Width in points of one line of ``text`` in our font at ``size`` points."""
     from matplotlib.font_manager import FontProperties
     from matplotlib.textpath import TextToPath
 
@@ -240,7 +241,7 @@ def wrap_text(text: str, width_in: float, size: float) -> list[str]:
     lines: list[str] = []
     for word in text.split():
         trial = f"{lines[-1]} {word}" if lines else word
-        if lines and _text_width_pt(trial, size) <= width_in * 72.0:
+        if lines and text_width_pt(trial, size) <= width_in * 72.0:
             lines[-1] = trial
         else:
             lines.append(word)
@@ -364,5 +365,5 @@ def nice_upper(value: float, steps: Iterable[float] = (0.05, 0.1, 0.2)) -> float
     v = max(float(value), 0.0)
     for step, below in zip(steps, (0.3, 0.6, 2.0), strict=True):
         if v <= below:
-            return min(1.0, max(step, math.ceil(v / step - 1e-9) * step))
+            return min(1.0, max(step, round(math.ceil(v / step - 1e-9) * step, 10)))
     return 1.0
