@@ -50,9 +50,21 @@ class Converted:
 
 
 def tokens(series: pd.Series) -> list[Token | None]:
-    """Every cell of a column read by :func:`calcbuilder.evidence._tokens.token`."""
+    """Every cell of a column read by :func:`calcbuilder.evidence._tokens.token`.
+
+    Each distinct cell is read once when the column holds one type only (text,
+    numbers or true/false); a column of mixed types is read cell by cell, so that
+    ``True`` and ``1`` (equal in Python) keep their own readings.
+    """
+    import pandas as pd
+
     cells = series.astype(object).where(series.notna(), None)
-    return [token(v) for v in cells.tolist()]
+    kind = pd.api.types.infer_dtype(cells, skipna=True)
+    if kind not in ("string", "floating", "integer", "boolean", "empty"):
+        return [token(v) for v in cells.tolist()]
+    codes, uniques = pd.factorize(cells, use_na_sentinel=True)
+    read = [token(v) for v in uniques.tolist()]
+    return [None if c < 0 else read[c] for c in codes.tolist()]
 
 
 def listing(positions: Sequence[int], shown: Sequence[str] | None = None) -> str:

@@ -276,6 +276,15 @@ def _finish(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
 
 def empty_rows(frame: pd.DataFrame) -> list[bool]:
     """True for each row whose every cell is missing or blank text."""
-    blank = frame.isna() | frame.apply(lambda col: col.map(lambda v: isinstance(v, str)
-                                                           and not v.strip()))
-    return [bool(x) for x in blank.all(axis=1).tolist()]
+    import numpy as np
+
+    blank = np.ones(frame.shape[0], dtype=bool)
+    for k in range(frame.shape[1]):
+        column = frame.iloc[:, k]
+        empty = column.isna().to_numpy()
+        if column.dtype == object:
+            text = column.map(lambda v: isinstance(v, str))
+            stripped = column.where(text, "x").astype(str).str.strip()
+            empty |= (text & stripped.eq("")).to_numpy(dtype=bool)
+        blank &= empty
+    return [bool(x) for x in blank.tolist()]

@@ -400,3 +400,12 @@ def test_example_recipe_loads_from_file() -> None:
     prepared = prepare(clean(), load_recipe(EXAMPLE))
     assert prepared.summary.rows_used == 1500
     assert prepared.warnings == ()
+
+
+def test_cells_are_read_once_per_value_but_never_merged_across_types() -> None:
+    from calcbuilder.evidence._convert import tokens
+
+    assert tokens(pd.Series([True, 1, "1", None, " NA ", 1.5])) == [
+        "true", 1.0, 1.0, None, None, 1.5]
+    assert tokens(pd.Series(["b", " a ", "b", None, ""])) == ["b", "a", "b", None, None]
+    assert tokens(pd.Series([0.0, np.nan, 2.0])) == [0.0, None, 2.0]
