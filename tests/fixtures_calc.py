@@ -123,7 +123,7 @@ def reference_risk(values: dict[str, Any], n_inputs: int) -> float:
 
 def _covariance(n_inputs: int) -> list[list[float]]:
     sd = [0.3, 0.004, 0.06, 0.15, 0.2, 0.25][: 1 + n_inputs + (n_inputs > 3)]
-    sd += [0.002] * (n_inputs - 4)
+    sd += [0.0005] * (n_inputs - 4)
     corr = 0.9 * np.eye(len(sd)) + 0.1
     return (np.outer(sd, sd) * corr).tolist()
 
@@ -148,7 +148,7 @@ def _evidence_set(kind: str, y: np.ndarray, risk: np.ndarray) -> dict[str, Any]:
     name = "Test Site A" if kind == "apparent" else "Test Site B"
     out: dict[str, Any] = {
         "id": f"{kind}-1", "kind": kind,
-        "label": "Development data (apparent)" if kind == "apparent" else "External: Test Site B",
+        "label": "Development data (apparent)" if kind == "apparent" else "Test Site B, 2024",
         "dataset": {"name": name, "period": "2024", "population": "adults in a test clinic",
                     "n": int(y.size), "events": int(y.sum()), "synthetic": True},
         "source": "tests/fixtures_calc.py",
