@@ -6,8 +6,9 @@ Shapes: ``y`` (n,); risks, linear predictors and weights (k, n), weights may als
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Protocol
 
 import numpy as np
 from numpy.typing import NDArray
@@ -15,18 +16,33 @@ from threadpoolctl import threadpool_limits
 
 from ._validate import FloatArray
 
-__all__ = ["Design", "auc_rows", "brier_rows", "chunk_rows", "fit_chunk", "fit_rows", "slope_rows"]
+__all__ = [
+    "Design",
+    "auc_rows",
+    "blas_threads",
+    "brier_rows",
+    "chunk_rows",
+    "fit_chunk",
+    "fit_rows",
+    "fit_rows_per_chunk",
+    "slope_rows",
+]
 
 BoolArray = NDArray[np.bool_]
 IntArray = NDArray[np.intp]
-Evaluator = Callable[[IntArray, FloatArray], tuple[FloatArray, FloatArray, FloatArray]]
-"""``(rows, beta (k, q)) -> (loglik (k,), score (k, q), information (k, q, q))``."""
 
-STEP_TOL = 1e-8  # largest change of a linear-predictor term at the final Newton step
-MAX_HALVINGS = 30
+STEP_TOL = 1e-8  # converged: the last full Newton step moved no linear predictor by more
 WORK_BYTES = 96 * 2**20  # bytes of (rows x n) work arrays per chunk
 WORK_ARRAYS = 10  # (k, n) float arrays alive at once in the heaviest kernel
+FIT_BYTES = 48 * 2**20  # bytes of the weight rows fitted together (one pass over the design)
+BLOCK_ELEMENTS = 2**16  # (rows x columns) per block of an evaluation: stays in cache
 RANK_TOL = 1e-12  # smallest eigenvalue / largest of the scaled weighted Gram matrix
+BLAS_THREADS: int | None = 1  # BLAS threads while resampling (None: leave as is); see the bench
+
+
+def blas_threads() -> threadpool_limits:
+    """Hold BLAS to ``BLAS_THREADS`` threads: many small products ran faster on one (bench)."""
+    return threadpool_limits(limits=BLAS_THREADS, user_api="blas")
 
 
 def chunk_rows(n: int) -> int:
@@ -34,9 +50,35 @@ def chunk_rows(n: int) -> int:
     return max(1, WORK_BYTES // (WORK_ARRAYS * 8 * n))
 
 
+def fit_rows_per_chunk(n: int) -> int:
+    """Weight rows fitted together: more rows share each pass over the design's pair products."""
+    return max(1, FIT_BYTES // (8 * n))
+
+
+def _block_width(k: int) -> int:
+    """Columns per block so that a (k, width) array stays in cache."""
+    return max(256, BLOCK_ELEMENTS // max(k, 1))
+
+
 # ----------------------------------------------------------------------------------------
-# batched Newton-Raphson
+# damped Newton-Raphson, many rows at once
 # ----------------------------------------------------------------------------------------
+
+
+class Problem(Protocol):
+    """A batch of weighted logistic likelihoods, one per row."""
+
+    def evaluate(self, rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Score (k, q) and information (k, q, q) of ``rows`` at ``beta``."""
+        ...
+
+    def reach(self, rows: IntArray, step: FloatArray) -> FloatArray:
+        """An upper bound, per row, of the largest change ``|z_i . step|`` of a linear predictor."""
+        ...
+
+    def loglik(self, rows: IntArray, beta: FloatArray) -> FloatArray:
+        """Log-likelihood of ``rows`` at ``beta``."""
+        ...
 
 
 def _solve(info: FloatArray, score: FloatArray) -> tuple[FloatArray, BoolArray]:
@@ -53,39 +95,33 @@ def _solve(info: FloatArray, score: FloatArray) -> tuple[FloatArray, BoolArray]:
 
 
 def newton(
-    evaluate: Evaluator, beta0: FloatArray, scale: FloatArray, max_iter: int
+    problem: Problem, beta0: FloatArray, max_iter: int
 ) -> tuple[FloatArray, BoolArray, IntArray, list[str]]:
-    """Maximise each row's log-likelihood; lazy step-halving when a step lowers it."""
+    """Damped Newton: a step that would move some linear predictor by more than 1 is
+    shortened by backtracking until it raises the log-likelihood, at worst to move none
+    by more than 1, which always raises it (see :func:`fit_logistic_batch`). Smaller
+    steps need no likelihood. A row has converged when a full step moved every linear
+    predictor by at most ``STEP_TOL``.
+    """
     B = beta0.shape[0]
-    beta, prev_beta, step = beta0.copy(), beta0.copy(), np.zeros_like(beta0)
-    prev_ll = np.full(B, -np.inf)
+    beta = beta0.copy()
     active, converged = np.ones(B, bool), np.zeros(B, bool)
-    iters, halvings = np.zeros(B, np.intp), np.zeros(B, np.intp)
+    iters = np.zeros(B, np.intp)
     reasons = [""] * B
     for _ in range(max_iter):
         rows = np.flatnonzero(active)
         if rows.size == 0:
             break
-        ll, score, info = evaluate(rows, beta[rows])
+        score, info = problem.evaluate(rows, beta[rows])
         iters[rows] += 1
-        worse = ~(ll >= prev_ll[rows] - 1e-10 * (1.0 + np.abs(prev_ll[rows])))
-        for r in rows[worse]:  # step-halving: retry half the last step from the last point
-            step[r] *= 0.5
-            beta[r] = prev_beta[r] + step[r]
-            halvings[r] += 1
-            if halvings[r] > MAX_HALVINGS:
-                active[r] = False
-                reasons[r] = "the log-likelihood kept falling after step-halving"
-        good = rows[~worse]
-        new_step, ok = _solve(info[~worse], score[~worse])
-        for r in good[~ok]:
+        step, ok = _solve(info, score)
+        for r in rows[~ok]:
             active[r] = False
             reasons[r] = "the information matrix became singular"
-        good, new_step = good[ok], new_step[ok]
-        prev_beta[good], prev_ll[good] = beta[good], ll[~worse][ok]
-        step[good], halvings[good] = new_step, 0
-        beta[good] += new_step
-        done = good[np.max(np.abs(new_step) * scale[good], axis=1) <= STEP_TOL]
+        rows, step = rows[ok], step[ok]
+        reach = problem.reach(rows, step)
+        beta[rows] += step * _step_length(problem, rows, beta[rows], step, reach)[:, None]
+        done = rows[reach <= STEP_TOL]
         converged[done], active[done] = True, False
     for r in np.flatnonzero(active):
         reasons[r] = (
@@ -96,20 +132,64 @@ def newton(
     return beta, converged, iters, reasons
 
 
-def _logistic_parts(eta: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray]:
-    """``p``, ``p(1-p)`` and ``log(1+exp(eta))`` without overflow (numpy exp, in place)."""
+def _step_length(
+    problem: Problem, rows: IntArray, beta: FloatArray, step: FloatArray, reach: FloatArray
+) -> FloatArray:
+    """Length of each Newton step: 1 when no linear predictor moves by more than 1.
+
+    Otherwise backtracking: the first of 1, 1/2, 1/4, ... that raises the
+    log-likelihood, never below the safe length ``1 / reach``, which always raises it.
+    """
+    length = np.ones(rows.size)
+    big = np.flatnonzero(reach > 1.0)
+    if big.size == 0:
+        return length
+    now = problem.loglik(rows[big], beta[big])
+    todo = np.arange(big.size)
+    while todo.size:
+        safe = 1.0 / reach[big[todo]]
+        settled = length[big[todo]] <= safe
+        length[big[todo[settled]]] = safe[settled]
+        todo = todo[~settled]
+        i = big[todo]
+        trial = problem.loglik(rows[i], beta[i] + length[i][:, None] * step[i])
+        todo = todo[~(trial > now[todo])]
+        length[big[todo]] *= 0.5
+    return length
+
+
+def _softplus_sum(eta: FloatArray, W: FloatArray | None) -> FloatArray:
+    """Row sums of ``w log(1 + exp(eta))`` without overflow (``eta`` is overwritten)."""
+    pos = np.maximum(eta, 0.0)
+    np.abs(eta, out=eta)
+    np.negative(eta, out=eta)
+    np.exp(eta, out=eta)
+    np.log1p(eta, out=eta)
+    eta += pos
+    return (
+        eta.sum(axis=1) if W is None else np.einsum("kn,kn->k", np.broadcast_to(W, eta.shape), eta)
+    )
+
+
+def _logistic_parts(eta: FloatArray, event: BoolArray) -> tuple[FloatArray, FloatArray]:
+    """Residual ``y - p`` and weight ``p(1-p)`` of ``p = 1/(1+exp(-eta))``, accurate in both tails.
+
+    With ``e = exp(-|eta|)`` and ``d = 1/(1+e)``, the smaller of ``p`` and ``1-p`` is
+    ``e d`` and the larger ``d``, so ``|y - p|`` is ``e d`` when the outcome lies on the
+    side of the linear predictor and ``d`` otherwise; ``p(1-p) = e d^2``. No difference
+    of nearly equal numbers is formed, so under separation the score stays accurate and
+    the iterations keep diverging instead of stopping on rounding noise.
+    """
     e = np.abs(eta)
     np.negative(e, out=e)
-    np.exp(e, out=e)  # exp(-|eta|) in (0, 1]
+    np.exp(e, out=e)
     d = e + 1.0
-    np.reciprocal(d, out=d)  # 1/(1+exp(-|eta|))
-    softplus = np.log1p(e)
-    softplus += np.maximum(eta, 0.0)
-    p = e * d
-    np.copyto(p, d, where=eta >= 0)
-    e *= d
-    e *= d  # p(1-p) = exp(-|eta|)/(1+exp(-|eta|))^2 on both branches
-    return p, e, softplus
+    np.reciprocal(d, out=d)
+    e *= d  # e d
+    resid = np.where((eta >= 0) == event, e, d)
+    np.negative(resid, out=resid, where=~event)
+    e *= d  # e d^2
+    return resid, e
 
 
 # ----------------------------------------------------------------------------------------
@@ -119,7 +199,7 @@ def _logistic_parts(eta: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray
 
 @dataclass(frozen=True)
 class Design:
-    """The design ``Z = [1, X]`` with its column-pair products ``Z_i * Z_j`` (``i <= j``).
+    """The design ``Z = [1, X]`` with its column-pair products ``Z_i * Z_j`` (``i <= j``, rows).
 
     One matrix product of weights with ``pairs`` gives every row's information matrix.
     """
@@ -127,13 +207,17 @@ class Design:
     Z: FloatArray
     pairs: FloatArray
     iu: tuple[IntArray, IntArray]
-    scale: FloatArray  # root-mean-square size of each column
+    zmax: FloatArray  # largest absolute value in each column
 
     @classmethod
     def build(cls, Z: FloatArray) -> Design:
         i, j = np.triu_indices(Z.shape[1])
         iu = (i.astype(np.intp), j.astype(np.intp))
-        return cls(Z, Z[:, i] * Z[:, j], iu, np.sqrt(np.mean(Z * Z, axis=0)))
+        cols = np.ascontiguousarray(Z.T)
+        pairs = np.empty((i.size, Z.shape[0]))
+        for c in range(i.size):
+            np.multiply(cols[i[c]], cols[j[c]], out=pairs[c])
+        return cls(Z, pairs, iu, np.abs(Z).max(axis=0))
 
 
 def _symmetric(flat: FloatArray, iu: tuple[IntArray, IntArray], q: int) -> FloatArray:
@@ -143,27 +227,50 @@ def _symmetric(flat: FloatArray, iu: tuple[IntArray, IntArray], q: int) -> Float
     return out
 
 
-def _design_evaluator(design: Design, y: FloatArray, W: FloatArray) -> Evaluator:
-    Z, pairs, iu = design.Z, design.pairs, design.iu
-    WyZ = W @ (Z * y[:, None])
+@dataclass(frozen=True)
+class _DesignProblem:
+    design: Design
+    W: FloatArray
+    WyZ: FloatArray
+    event: BoolArray
 
-    def evaluate(rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray]:
-        Wk = W if rows.size == W.shape[0] else W[rows]
-        eta = beta @ Z.T
-        p, v, softplus = _logistic_parts(eta)
-        ll = np.einsum("kj,kj->k", WyZ[rows], beta) - np.einsum("kn,kn->k", Wk, softplus)
-        p *= Wk
-        v *= Wk
-        score = WyZ[rows] - p @ Z
-        return ll, score, _symmetric(v @ pairs, iu, Z.shape[1])
+    def evaluate(self, rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray]:
+        Z, pairs, W = self.design.Z, self.design.pairs, self.W
+        every = rows.size == W.shape[0]
+        score = np.zeros((rows.size, Z.shape[1]))
+        info = np.zeros((rows.size, pairs.shape[0]))
+        width = _block_width(rows.size)
+        for s in range(0, Z.shape[0], width):
+            Zb = Z[s : s + width]
+            Wb = W[:, s : s + width] if every else W[rows, s : s + width]
+            r, v = _logistic_parts(beta @ Zb.T, self.event[s : s + width])
+            r *= Wb
+            v *= Wb
+            score += r @ Zb
+            info += v @ pairs[:, s : s + width].T
+        return score, _symmetric(info, self.design.iu, Z.shape[1])
 
-    return evaluate
+    def loglik(self, rows: IntArray, beta: FloatArray) -> FloatArray:
+        Z, W = self.design.Z, self.W[rows]
+        ll = np.einsum("kj,kj->k", self.WyZ[rows], beta)
+        width = _block_width(rows.size)
+        for s in range(0, Z.shape[0], width):
+            ll -= _softplus_sum(beta @ Z[s : s + width].T, W[:, s : s + width])
+        return np.asarray(ll, dtype=np.float64)
+
+    def reach(self, rows: IntArray, step: FloatArray) -> FloatArray:
+        del rows  # one design for every row
+        bound = np.abs(step) @ self.design.zmax
+        big = np.flatnonzero(bound > 1.0)
+        for i in big:  # the cheap bound may be loose: compute the largest change exactly
+            bound[i] = float(np.abs(self.design.Z @ step[i]).max())
+        return np.asarray(bound, dtype=np.float64)
 
 
 def _rank_failures(design: Design, W: FloatArray) -> BoolArray:
     """Rows whose weighted design is rank-deficient (scaled Gram matrix nearly singular)."""
     q = design.Z.shape[1]
-    gram = _symmetric(W @ design.pairs, design.iu, q)
+    gram = _symmetric(W @ design.pairs.T, design.iu, q)
     diag = np.sqrt(np.einsum("kii->ki", gram))
     with np.errstate(divide="ignore", invalid="ignore"):
         scaled = gram / diag[:, :, None] / diag[:, None, :]
@@ -187,9 +294,9 @@ def fit_chunk(
     for r in np.flatnonzero(singular):
         reasons[r] = "the weighted design is rank-deficient (a column constant or duplicated)"
     if fine.size:
-        ev = _design_evaluator(design, y, W if fine.size == k else W[fine])
-        scale = np.broadcast_to(design.scale, (fine.size, q))
-        b, c, it, why = newton(ev, beta0[fine], scale, max_iter)
+        Wf = W if fine.size == k else W[fine]
+        problem = _DesignProblem(design, Wf, Wf @ (design.Z * y[:, None]), y == 1)
+        b, c, it, why = newton(problem, beta0[fine], max_iter)
         coef[fine], conv[fine], iters[fine] = b, c, it
         for r, text in zip(fine, why, strict=True):
             reasons[r] = text
@@ -201,9 +308,9 @@ def fit_rows(
 ) -> tuple[FloatArray, BoolArray, IntArray, list[str]]:
     """Fit every row of ``W`` in chunks, BLAS held to one thread."""
     design = Design.build(Z)
-    step = chunk_rows(y.size)
+    step = fit_rows_per_chunk(y.size)
     parts = []
-    with threadpool_limits(limits=1, user_api="blas"):
+    with blas_threads():
         for s in range(0, W.shape[0], step):
             parts.append(fit_chunk(design, y, W[s : s + step], beta0[s : s + step], max_iter))
     reasons = [r for part in parts for r in part[3]]
@@ -289,30 +396,59 @@ def _unit(W: FloatArray) -> bool:
     return W.shape[0] == 1 and bool((W == 1.0).all())
 
 
-def _slope_evaluator(y: FloatArray, L: FloatArray, W: FloatArray | None) -> Evaluator:
-    """Two-parameter logistic ``a + b L`` per row; ``W is None`` means unit weights."""
-    wy = y[None, :] if W is None else W * y
-    Sy = np.stack([np.broadcast_to(wy.sum(axis=1), (L.shape[0],)), (wy * L).sum(axis=1)], axis=1)
+@dataclass(frozen=True)
+class _SlopeProblem:
+    """Two-parameter logistic ``a + b L`` per row of ``L``; ``W is None`` means unit weights."""
 
-    def evaluate(rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray]:
-        Lk = L if rows.size == L.shape[0] else L[rows]
-        eta = Lk * beta[:, 1:2]
-        eta += beta[:, 0:1]
-        p, v, softplus = _logistic_parts(eta)
-        if W is not None:
-            Wk = W if W.shape[0] == 1 else W[rows]
-            p *= Wk
-            v *= Wk
-            softplus *= Wk
-        ll = np.einsum("kj,kj->k", Sy[rows], beta) - softplus.sum(axis=1)
-        score = Sy[rows] - np.stack([p.sum(axis=1), np.einsum("kn,kn->k", p, Lk)], axis=1)
-        s0, s1 = v.sum(axis=1), np.einsum("kn,kn->k", v, Lk)
-        v *= Lk
-        s2 = np.einsum("kn,kn->k", v, Lk)
-        info = np.stack([np.stack([s0, s1], axis=1), np.stack([s1, s2], axis=1)], axis=1)
-        return ll, score, info
+    L: FloatArray
+    W: FloatArray | None
+    Sy: FloatArray  # weighted sums of y and y L per row
+    lo: FloatArray
+    hi: FloatArray
+    event: BoolArray
 
-    return evaluate
+    @classmethod
+    def build(cls, y: FloatArray, L: FloatArray, W: FloatArray | None) -> _SlopeProblem:
+        wy = y[None, :] if W is None else W * y
+        Sy = np.stack([np.broadcast_to(wy.sum(axis=1), L.shape[:1]), (wy * L).sum(axis=1)], axis=1)
+        return cls(L, W, Sy, L.min(axis=1), L.max(axis=1), y == 1)
+
+    def evaluate(self, rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray]:
+        L, W = self.L, self.W
+        every = rows.size == L.shape[0]
+        score, info = np.zeros((rows.size, 2)), np.zeros((rows.size, 3))
+        width = _block_width(rows.size)
+        for s in range(0, L.shape[1], width):
+            Lb = L[:, s : s + width] if every else L[rows, s : s + width]
+            eta = Lb * beta[:, 1:2]
+            eta += beta[:, 0:1]
+            r, v = _logistic_parts(eta, self.event[s : s + width])
+            if W is not None:
+                Wb = W[:, s : s + width] if (every or W.shape[0] == 1) else W[rows, s : s + width]
+                r *= Wb
+                v *= Wb
+            score[:, 0] += r.sum(axis=1)
+            score[:, 1] += np.einsum("kn,kn->k", r, Lb)
+            info[:, 0] += v.sum(axis=1)
+            info[:, 1] += np.einsum("kn,kn->k", v, Lb)
+            v *= Lb
+            info[:, 2] += np.einsum("kn,kn->k", v, Lb)
+        return score, _symmetric(info, (np.array([0, 0, 1]), np.array([0, 1, 1])), 2)
+
+    def loglik(self, rows: IntArray, beta: FloatArray) -> FloatArray:
+        L = self.L[rows]
+        W = None if self.W is None else (self.W if self.W.shape[0] == 1 else self.W[rows])
+        ll = np.einsum("kj,kj->k", self.Sy[rows], beta)
+        width = _block_width(rows.size)
+        for s in range(0, L.shape[1], width):
+            eta = L[:, s : s + width] * beta[:, 1:2]
+            eta += beta[:, 0:1]
+            ll -= _softplus_sum(eta, None if W is None else W[:, s : s + width])
+        return np.asarray(ll, dtype=np.float64)
+
+    def reach(self, rows: IntArray, step: FloatArray) -> FloatArray:
+        a, b = step[:, 0], step[:, 1]
+        return np.maximum(np.abs(a + b * self.hi[rows]), np.abs(a + b * self.lo[rows]))
 
 
 def _slope_prechecks(y: FloatArray, L: FloatArray, W: FloatArray) -> tuple[FloatArray, BoolArray]:
@@ -350,11 +486,9 @@ def slope_rows(
         rows = np.flatnonzero(fit)
         if rows.size:
             Lr = Lb if rows.size == k else Lb[rows]
-            rms = np.sqrt(np.einsum("kn,kn->k", Lr, Lr) / Lr.shape[1])
-            scale = np.stack([np.ones(rows.size), rms], axis=1)
-            beta0 = np.tile([0.0, 1.0], (rows.size, 1))
             W_use = None if _unit(W) else (W if W.shape[0] == 1 else W[rows])
-            b, c, _, why = newton(_slope_evaluator(y, Lr, W_use), beta0, scale, max_iter)
+            problem = _SlopeProblem.build(y, Lr, W_use)
+            b, c, _, why = newton(problem, np.tile([0.0, 1.0], (rows.size, 1)), max_iter)
             slope[rows], ok[rows] = b[:, 1], c
             for r, text in zip(rows, why, strict=True):
                 reasons[r] = text

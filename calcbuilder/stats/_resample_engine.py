@@ -9,14 +9,24 @@ the original data, out-of-bag or held-out indicators).
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ._batch_core import BoolArray, Design, auc_rows, brier_rows, chunk_rows, fit_chunk, slope_rows
+from ._batch_core import (
+    BoolArray,
+    Design,
+    IntArray,
+    auc_rows,
+    brier_rows,
+    chunk_rows,
+    fit_chunk,
+    fit_rows_per_chunk,
+    slope_rows,
+)
 from ._validate import FloatArray, ProgressCallback, as_risk, report_progress
 from .batch import design_matrix
 from .errors import StatsInputError
@@ -173,12 +183,38 @@ class Progress:
 
 @dataclass(frozen=True)
 class Predictions:
-    """Risks and linear predictors for every original row, one row per weight row."""
+    """Predictions for every original row, one row per weight row, made on demand.
 
-    risk: FloatArray
-    lp: FloatArray
+    The fast path keeps only coefficients (risks for a few rows at a time keep
+    memory bounded); the slow path keeps the procedure's risks.
+    """
+
     ok: BoolArray
     reasons: list[str]
+    risk: FloatArray | None = None
+    lp: FloatArray | None = None
+    coef: FloatArray | None = None
+    Z: FloatArray | None = None
+
+    def take(self, rows: IntArray) -> tuple[FloatArray, FloatArray]:
+        """Risks and linear predictors (len(rows), n) of the given weight rows."""
+        if self.coef is None or self.Z is None:
+            assert self.risk is not None
+            assert self.lp is not None
+            return self.risk[rows], self.lp[rows]
+        lp = self.coef[rows] @ self.Z.T
+        with np.errstate(over="ignore"):
+            risk = np.exp(-lp)
+        risk += 1.0
+        np.reciprocal(risk, out=risk)
+        return risk, lp
+
+    def pieces(self, size: int) -> Iterator[tuple[IntArray, FloatArray, FloatArray]]:
+        """``(rows, risk, lp)`` for the successful rows, ``size`` rows at a time."""
+        good = np.flatnonzero(self.ok)
+        for s in range(0, good.size, size):
+            rows = good[s : s + size]
+            yield (rows, *self.take(rows))
 
 
 class FastEngine:
@@ -190,20 +226,16 @@ class FastEngine:
         self.Z = self.design.Z
         self.start = fit_logistic(self.Z[:, 1:], y).coef  # clear errors on the original data
         self.max_iter = check_count(procedure.max_iter, "PlainLogistic.max_iter", 1)
-        self.chunk = chunk_rows(y.size)
+        self.chunk = fit_rows_per_chunk(y.size)
+        self.piece = chunk_rows(y.size)
 
     def predict(self, W: FloatArray, progress: Progress | None, first: int = 0) -> Predictions:
         del first  # resample numbers only appear in the slow path's messages
         beta0 = np.broadcast_to(self.start, (W.shape[0], self.Z.shape[1]))
         coef, ok, _, reasons = fit_chunk(self.design, self.y, W, beta0, self.max_iter)
-        lp = coef @ self.Z.T
-        with np.errstate(over="ignore"):
-            risk = np.exp(-lp)
-        risk += 1.0
-        np.reciprocal(risk, out=risk)
         if progress is not None:
             progress.tick(W.shape[0])
-        return Predictions(risk, lp, ok, reasons)
+        return Predictions(ok, reasons, coef=coef, Z=self.Z)
 
     def apparent(self) -> Predictions:
         return self.predict(np.ones((1, self.y.size)), None)
@@ -217,7 +249,7 @@ class SlowEngine:
         if hasattr(X, "__len__") and len(X) != n:
             raise StatsInputError(f"X must have the same number of rows as y ({n}); got {len(X)}")
         self.X, self.y, self.fit = X, y, fit
-        self.chunk = chunk_rows(n)
+        self.chunk = self.piece = chunk_rows(n)
 
     def _checked(self, predict: Any, what: str) -> Predictor:
         if not callable(predict):
@@ -241,12 +273,12 @@ class SlowEngine:
                 risk[i], ok[i] = self._risk(raw, what), True
             if progress is not None:
                 progress.tick()
-        return Predictions(risk, _logit(risk), ok, reasons)
+        return Predictions(ok, reasons, risk=risk, lp=_logit(risk))
 
     def apparent(self) -> Predictions:
         predict = self._checked(self.fit(self.X, self.y, np.ones(self.y.size)), "(original data)")
         risk = self._risk(predict(self.X), "(original data)")[None, :]
-        return Predictions(risk, _logit(risk), np.ones(1, bool), [""])
+        return Predictions(np.ones(1, bool), [""], risk=risk, lp=_logit(risk))
 
 
 def _attempt(call: Callable[..., Any], *args: Any) -> tuple[Any, str]:
@@ -278,7 +310,7 @@ def apparent_values(metrics: Sequence[Metric], y: FloatArray, pred: Predictions)
     """Each metric of the original-data model on the original data; a failure is an error."""
     out = []
     for m in metrics:
-        ((value, ok),) = m.rows(y, pred.risk, pred.lp, [np.ones((1, y.size))])
+        ((value, ok),) = m.rows(y, *pred.take(np.zeros(1, np.intp)), [np.ones((1, y.size))])
         if not ok[0]:
             raise StatsInputError(
                 f"metric {m.name} cannot be computed for the model fitted to the original data "

@@ -17,6 +17,7 @@ __all__ = [
     "Efron632Estimate",
     "OptimismEstimate",
     "ResampleFailure",
+    "boot_loop",
     "combine_632",
     "cv_loop",
     "efron_632plus_values",
@@ -78,6 +79,40 @@ class CVEstimate:
 def _all_failed(what: str, failures: Sequence[ResampleFailure]) -> StatsInputError:
     first = failures[0].reason if failures else "no reason recorded"
     return StatsInputError(f"every resample failed for {what}; the first failure: {first}")
+
+
+def boot_loop(
+    engine: Engine,
+    y: FloatArray,
+    mets: Sequence[Metric],
+    B: int,
+    *,
+    rng: np.random.Generator,
+    bar: Progress,
+) -> tuple[FloatArray, FloatArray, list[ResampleFailure]]:
+    """Each resample model's metrics on its resample and on the original data, (B, metrics)."""
+    boot, test = np.full((B, len(mets)), np.nan), np.full((B, len(mets)), np.nan)
+    failures: list[ResampleFailure] = []
+    ones = np.ones((1, y.size))
+    for s in range(0, B, engine.chunk):
+        W = bootstrap_counts(rng, y.size, min(engine.chunk, B - s))
+        pred = engine.predict(W, bar, s)
+        failures += [ResampleFailure(s + i, r) for i, r in enumerate(pred.reasons) if r]
+        for rows, R, L in pred.pieces(engine.piece):
+            for j, m in enumerate(mets):
+                (vb, okb), (vt, okt) = m.rows(y, R, L, [W[rows], ones])
+                both = okb & okt
+                boot[s + rows[both], j], test[s + rows[both], j] = vb[both], vt[both]
+                failures += [
+                    ResampleFailure(int(s + r), f"{m.name} is undefined on the {where}")
+                    for r, where in zip(
+                        rows[~both],
+                        np.where(okb[~both], "original data", "bootstrap sample"),
+                        strict=True,
+                    )
+                ]
+    failures.sort(key=lambda f: f.resample)
+    return boot, test, failures
 
 
 def optimism_estimates(
@@ -148,24 +183,23 @@ def oob_loop(
         W = bootstrap_counts(rng, n, min(engine.chunk, B - s))
         pred = engine.predict(W, bar, s)
         failures += [ResampleFailure(s + i, r) for i, r in enumerate(pred.reasons) if r]
-        rows = np.flatnonzero(pred.ok)
-        out = (W[rows] == 0).astype(np.float64)
-        R = pred.risk[rows]
-        good = out.sum(axis=1) > 0
-        if "auc" in names:
-            ((values, ok),) = auc_rows(y, R, [out])
-            good &= ok
-            aucs.extend(values[good].tolist())
-        failures += [
-            ResampleFailure(int(s + r), "its out-of-bag rows hold one outcome class (or none)")
-            for r in rows[~good]
-        ]
-        loss = R[good] - y
-        loss *= loss
-        loss *= out[good]
-        loss_sum += loss.sum(axis=0)
-        oob_count += out[good].sum(axis=0)
-        used += int(good.sum())
+        for rows, R, _ in pred.pieces(engine.piece):
+            out = (W[rows] == 0).astype(np.float64)
+            good = out.sum(axis=1) > 0
+            if "auc" in names:
+                ((values, ok),) = auc_rows(y, R, [out])
+                good &= ok
+                aucs.extend(values[good].tolist())
+            failures += [
+                ResampleFailure(int(s + r), "its out-of-bag rows hold one outcome class (or none)")
+                for r in rows[~good]
+            ]
+            loss = R[good] - y
+            loss *= loss
+            loss *= out[good]
+            loss_sum += loss.sum(axis=0)
+            oob_count += out[good].sum(axis=0)
+            used += int(good.sum())
     failures.sort(key=lambda f: f.resample)
     if used == 0:
         raise _all_failed("the .632 estimators", failures)
@@ -274,17 +308,17 @@ def cv_loop(
         held = labels[js // k] == (js % k)[:, None]
         pred = engine.predict((~held).astype(np.float64), bar, s)
         failures += [ResampleFailure(s + i, r) for i, r in enumerate(pred.reasons) if r]
-        rows = np.flatnonzero(pred.ok)
-        for i in rows:
-            oof[js[i] // k, held[i]] = pred.risk[i, held[i]]
-            oof_lp[js[i] // k, held[i]] = pred.lp[i, held[i]]
-        for j, m in enumerate(mets):
-            ((v, ok),) = m.rows(y, pred.risk[rows], pred.lp[rows], [held[rows].astype(float)])
-            fold_values[js[rows[ok]], j] = v[ok]
-            failures += [
-                ResampleFailure(int(js[r]), f"{m.name} is undefined on the held-out fold")
-                for r in rows[~ok]
-            ]
+        for rows, R, L in pred.pieces(engine.piece):
+            for i, r in enumerate(rows):
+                oof[js[r] // k, held[r]] = R[i, held[r]]
+                oof_lp[js[r] // k, held[r]] = L[i, held[r]]
+            for j, m in enumerate(mets):
+                ((v, ok),) = m.rows(y, R, L, [held[rows].astype(float)])
+                fold_values[js[rows[ok]], j] = v[ok]
+                failures += [
+                    ResampleFailure(int(js[r]), f"{m.name} is undefined on the held-out fold")
+                    for r in rows[~ok]
+                ]
     complete = np.isfinite(oof).all(axis=1)
     estimates = tuple(
         _summaries(m, y, fold_values[:, j], oof[complete], oof_lp[complete])

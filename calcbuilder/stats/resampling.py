@@ -43,8 +43,8 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
-from threadpoolctl import threadpool_limits
 
+from ._batch_core import blas_threads
 from ._resample_engine import (
     FitProcedure,
     Metric,
@@ -52,7 +52,6 @@ from ._resample_engine import (
     Predictor,
     Progress,
     apparent_values,
-    bootstrap_counts,
     check_count,
     generator,
     make_engine,
@@ -63,6 +62,7 @@ from ._resample_estimators import (
     Efron632Estimate,
     OptimismEstimate,
     ResampleFailure,
+    boot_loop,
     cv_loop,
     efron_632plus_values,
     oob_loop,
@@ -228,34 +228,9 @@ def bootstrap_optimism(
     B = check_count(n_boot, "n_boot", 1)
     rng, used_seed = generator(seed)
     apparent = apparent_values(mets, yv, engine.apparent())
-    boot, test = np.full((B, len(mets)), np.nan), np.full((B, len(mets)), np.nan)
-    failures: list[ResampleFailure] = []
-    bar = Progress(progress, B)
-    ones = np.ones((1, yv.size))
-    with threadpool_limits(limits=1, user_api="blas"):
-        for s in range(0, B, engine.chunk):
-            W = bootstrap_counts(rng, yv.size, min(engine.chunk, B - s))
-            pred = engine.predict(W, bar, s)
-            failures += [ResampleFailure(s + i, r) for i, r in enumerate(pred.reasons) if r]
-            rows = np.flatnonzero(pred.ok)
-            if rows.size == 0:
-                continue
-            every = rows.size == W.shape[0]
-            R, L = (pred.risk, pred.lp) if every else (pred.risk[rows], pred.lp[rows])
-            for j, m in enumerate(mets):
-                (vb, okb), (vt, okt) = m.rows(yv, R, L, [W if every else W[rows], ones])
-                both = okb & okt
-                boot[s + rows[both], j], test[s + rows[both], j] = vb[both], vt[both]
-                failures += [
-                    ResampleFailure(int(s + r), f"{m.name} is undefined on the {where}")
-                    for r, where in zip(
-                        rows[~both],
-                        np.where(okb[~both], "original data", "bootstrap sample"),
-                        strict=True,
-                    )
-                ]
+    with blas_threads():
+        boot, test, failures = boot_loop(engine, yv, mets, B, rng=rng, bar=Progress(progress, B))
     estimates = optimism_estimates(mets, apparent, boot, test, failures)
-    failures.sort(key=lambda f: f.resample)
     return BootstrapValidation(
         estimates, B, len({f.resample for f in failures}), tuple(failures), used_seed, boot, test
     )
@@ -303,11 +278,11 @@ def efron_632plus(
     rng, used_seed = generator(seed)
     app = engine.apparent()
     apparent = dict(zip([m.name for m in mets], apparent_values(mets, yv, app), strict=True))
-    with threadpool_limits(limits=1, user_api="blas"):
+    with blas_threads():
         oob = oob_loop(
             engine, yv, B, rng=rng, names=[m.name for m in mets], bar=Progress(progress, B)
         )
-    estimates = efron_632plus_values(apparent, oob, yv, app.risk[0])
+    estimates = efron_632plus_values(apparent, oob, yv, app.take(np.zeros(1, np.intp))[0][0])
     return Efron632Validation(
         estimates,
         B,
@@ -368,7 +343,7 @@ def cross_validate(
         limit = f"the smaller outcome class ({smaller}) when stratify=True" if stratify else "n"
         raise StatsInputError(f"k must be at most {limit}; got {k}")
     rng, used_seed = generator(seed)
-    with threadpool_limits(limits=1, user_api="blas"):
+    with blas_threads():
         bar = Progress(progress, k * repeats)
         cv = cv_loop(engine, yv, mets, k=k, repeats=repeats, stratify=stratify, rng=rng, bar=bar)
     return CrossValidation(
