@@ -168,6 +168,8 @@ def _transform(term: PlannedTerm, values: Mapping[str, NDArray[Any]],
         return Product((a, b))
     assert term.input is not None
     x = values[term.input]
+    if term.type in ("indicator", "levels") and not _named_choices_occur(term, choices, problems):
+        return None
     if term.type == "indicator":
         return Indicator(term.settings.get("level"))
     if term.type == "levels":
@@ -180,6 +182,21 @@ def _transform(term: PlannedTerm, values: Mapping[str, NDArray[Any]],
         problems.append(f"{term.path}.knots: cannot place {term.settings['knots']} knots from "
                         f"the data ({exc}); use fewer knots or list them explicitly")
         return None
+
+
+def _named_choices_occur(term: PlannedTerm, choices: Mapping[str, Sequence[str]],
+                        problems: list[str]) -> bool:
+    """A level or reference named in the recipe must be a choice (read from the data or not)."""
+    options = choices.get(str(term.input))
+    if options is None:  # a yes/no indicator
+        return True
+    key = "level" if term.type == "indicator" else "reference"
+    named = term.settings.get(key)
+    if named is None or named in options:
+        return True
+    problems.append(f"{term.path}.{key}: '{named}' is not among the choices found in the data "
+                    f"({', '.join(options)})")
+    return False
 
 
 def design_matrix(

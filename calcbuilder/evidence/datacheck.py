@@ -182,6 +182,8 @@ def prepare(df: pd.DataFrame, recipe: Recipe, *, complete_case: bool = False) ->
         When the term plan cannot be written as a valid calculator model (a
         defect of calcbuilder; should not happen).
     """
+    df = df.set_axis([str(c) for c in df.columns], axis=1)
+    _raise_if(_duplicate_columns(df, recipe))
     problems: list[str] = _missing_columns(df, recipe)
     blank = np.array(empty_rows(df), dtype=bool) if len(df.columns) else np.zeros(len(df), bool)
     outcome, columns = _convert(df, recipe, problems)
@@ -243,6 +245,12 @@ def _raise_if(problems: list[str]) -> None:
         n = len(problems)
         raise DataError(f"the data cannot be used to fit the model: {n} problem"
                         f"{'s' if n != 1 else ''}", problems)
+
+
+def _duplicate_columns(df: pd.DataFrame, recipe: Recipe) -> list[str]:
+    have = list(df.columns)
+    return [f"the data have more than one column named '{column}' ({path}); column names must "
+            "be unique" for column, path in recipe.columns.items() if have.count(column) > 1]
 
 
 def _missing_columns(df: pd.DataFrame, recipe: Recipe) -> list[str]:

@@ -129,7 +129,7 @@ class Recipe:
                          f"{RECIPE_VERSION} (got {version!r})")
         outcome = parse_outcome(raw, problems)
         inputs = parse_input_entries(raw.get("inputs"), problems)
-        ids = [e.id for e in inputs or ()]
+        ids = [e.id for e in inputs] if inputs is not None else _raw_ids(raw.get("inputs"))
         interactions = parse_interactions(raw, ids, problems)
         about = parse_about(raw, problems)
         decision = parse_decision(raw, problems)
@@ -244,6 +244,13 @@ class Recipe:
                for k, v in sorted(about.items(), key=lambda kv: ABOUT_ORDER.index(kv[0]))}
         out["released"], out["review_by"] = day.isoformat(), about["review_by"].isoformat()
         return out
+
+
+def _raw_ids(raw_list: Any) -> list[str]:
+    """The ids written in the entries, for checking interactions when an entry has problems."""
+    if not isinstance(raw_list, list):
+        return []
+    return [r["id"] for r in raw_list if isinstance(r, Mapping) and isinstance(r.get("id"), str)]
 
 
 def _outcome_not_input(outcome: Outcome, inputs: Sequence[InputEntry], problems: Problems

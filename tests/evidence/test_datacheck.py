@@ -409,3 +409,24 @@ def test_cells_are_read_once_per_value_but_never_merged_across_types() -> None:
         "true", 1.0, 1.0, None, None, 1.5]
     assert tokens(pd.Series(["b", " a ", "b", None, ""])) == ["b", "a", "b", None, None]
     assert tokens(pd.Series([0.0, np.nan, 2.0])) == [0.0, None, 2.0]
+
+
+def test_duplicate_and_non_text_column_names() -> None:
+    df = clean()
+    twice = pd.concat([df, df[["age"]]], axis=1)
+    assert one(twice) == ("the data have more than one column named 'age' (inputs[age].column); "
+                          "column names must be unique")
+    numbered = df.rename(columns={"age": 7})
+    recipe = recipe_with(lambda r: entry(r, "age").update(column="7"))
+    assert prepare(numbered, recipe).summary.rows_used == 1500
+
+
+def test_named_level_missing_from_data_choices() -> None:
+    def from_data(raw: dict[str, Any]) -> None:
+        entry(raw, "asa").pop("choices")
+        entry(raw, "asa")["transform"] = {"type": "indicator", "level": "V"}
+
+    assert one(clean(), recipe_with(from_data)) == (
+        "inputs[asa].transform.level: 'V' is not among the choices found in the data (I-II, III, "
+        "IV)")
+

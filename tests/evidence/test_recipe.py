@@ -322,6 +322,13 @@ def test_interactions() -> None:
                                 "twice")
 
 
+def test_interaction_check_survives_a_broken_entry() -> None:
+    raw = example()
+    raw["interactions"] = [{"of": ["age", "sensory"]}]
+    entry(raw, "age").pop("limits")
+    assert one_problem(raw).startswith("inputs[age].limits: required for a number input")
+
+
 def test_outcome_section() -> None:
     raw = example()
     raw.pop("outcome")
