@@ -230,8 +230,8 @@ def decision_curve_figure(
     ax = fig.add_subplot()
     st.style_axes(ax, style)
     if rng is not None and wider:
-        ax.axvspan(*rng, color=st.RANGE_FILL, zorder=0, linewidth=0,
-                   label="Reasonable thresholds (authors)")
+        ax.axvspan(*rng, facecolor=st.RANGE_FILL, edgecolor=st.RANGE_EDGE, zorder=0,
+                   linewidth=style.thin, label="Reasonable thresholds (authors)")
     _dc_draw(ax, style, c, label, reference_label)
     ax.set_xlim(lo, hi)
     _dc_marks(ax, style, c, thr, risk)

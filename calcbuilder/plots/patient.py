@@ -32,7 +32,7 @@ __all__ = [
 
 _ROW_PITCH = 1.3  # vertical distance between icon rows, in icon widths
 _BLOCK_GAP = 0.6  # extra space between blocks of 10 x 10 icons
-_POS_SIZE = {"screen": (5.6, 2.8), "print": (3.4, 1.9)}
+_POS_SIZE = {"screen": (5.6, 2.8), "print": (3.4, 2.1)}
 
 
 # --- icon array -----------------------------------------------------------------------
@@ -154,7 +154,7 @@ def icon_array_figure(
     shapes = _people([_icon_origin(i, cols) for i in range(total)])
     small = total > 100
     default = ((6.4, 4.0) if small else (3.8, 4.6)) if style.medium == "screen" else \
-        ((3.6, 2.5) if small else (2.4, 3.0))
+        ((3.6, 2.8) if small else (2.4, 3.0))
     fig = st.new_figure(size if size is not None else default, style)
     ax = fig.add_subplot()
     edge_w = style.thin * (0.45 if small else 1.0)
@@ -163,10 +163,8 @@ def icon_array_figure(
             ax.add_collection(PathCollection(
                 part, facecolor=look.face, edgecolor=look.edge, linewidth=edge_w,
                 gid="icons-affected" if look is st.AFFECTED else "icons-other"))
-    x_max = cols + (cols // 10 - 1) * _BLOCK_GAP
-    rows = math.ceil(total / cols)
-    ax.set_xlim(-0.2, x_max + 0.2)
-    ax.set_ylim(-((rows - 1) * _ROW_PITCH + (rows // 10 - 1) * _BLOCK_GAP) - 0.2, 1.35)
+    ax.autoscale_view()  # the limits follow the icons
+    ax.margins(0.01)
     ax.set_aspect("equal")
     ax.set_axis_off()
     handles = [Patch(facecolor=st.AFFECTED.face, edgecolor=st.AFFECTED.edge,
@@ -176,9 +174,9 @@ def icon_array_figure(
     size_pt = st.legend_font(style)["size"]
     one_row = sum(st.text_width_pt(str(h.get_label()), size_pt) + 3.5 * size_pt
                   for h in handles) < fig.get_size_inches()[0] * 72.0 * 0.9
-    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, 0.0),
-              ncols=2 if one_row else 1, frameon=False, prop=st.legend_font(style),
-              handlelength=1.2)
+    # A figure legend below everything (not tied to the aspect-shrunk axes box).
+    fig.legend(handles=handles, loc="outside lower center", ncols=2 if one_row else 1,
+               frameon=False, prop=st.legend_font(style), handlelength=1.2)
     heading = _icon_heading(n, total) if title is None else title
     return st.finish(fig, style, synthetic=synthetic, title=heading or None)
 
@@ -240,14 +238,14 @@ def risk_position_figure(
         The cohort in words, for the note under the plot.
     synthetic, title, medium, size
         As in :func:`calcbuilder.plots.roc_figure`; default 5.6 x 2.8 in on
-        screen, 3.4 x 1.9 in in print.
+        screen, 3.4 x 2.1 in in print.
 
     Returns
     -------
     matplotlib.figure.Figure
         One axes. The part of the cohort with a lower risk than the patient is
-        dark and hatched, the rest light; direct labels give both shares and a
-        note repeats them in words (:func:`cohort_percentile`).
+        dark and hatched, the rest light; a direct label gives both shares and
+        a note repeats them in a sentence (:func:`cohort_percentile`).
     """
     style = st.get_style(medium)
     e, c = _histogram(edges, counts)
@@ -269,12 +267,12 @@ def risk_position_figure(
     filled = np.flatnonzero(c > 0)
     right = st.nice_upper(max(float(e[filled[-1] + 1]), risk * 1.05))
     ax.set_xlim(min(0.0, float(e[0])), right)
-    ax.set_ylim(0, float(c.max()) * 1.45)
+    ax.set_ylim(0, float(c.max()) * 1.6)  # the top third holds the direct labels
     st.percent_axis(ax, "x")
     st.set_labels(ax, style, "Predicted risk, %", "Patients")
     _position_labels(ax, style, risk, below, right)
-    note = (f"About {_share(below)} of the {c.sum():,.0f} patients in {cohort} "
-            f"had a lower predicted risk.")
+    share = {0.0: "None", 100.0: "All"}.get(below, f"About {_share(below)}")
+    note = f"{share} of the {c.sum():,.0f} patients in {cohort} had a lower predicted risk."
     return st.finish(fig, style, notes=[note], synthetic=synthetic, title=title)
 
 
@@ -289,16 +287,14 @@ def _share(percent: float) -> str:
 
 def _position_labels(ax: Axes, style: FigureStyle, risk: float, below: float,
                      right: float) -> None:
-    """Direct labels: the patient's risk by the diamond, the shares either side."""
+    """Direct label by the diamond, on the open side: the risk and the shares either side."""
     on_left = risk > 0.6 * right
-    trans = ax.get_xaxis_transform()
-    ax.annotate(f"This patient {st.pct(risk)}", (risk, 1.0), xycoords=trans,
+    text = (f"This patient {st.pct(risk)}\n"
+            f"{_share(below)} of the cohort lower, {_share(100 - below)} higher")
+    ax.annotate(text, (risk, 1.0), xycoords=ax.get_xaxis_transform(),
                 xytext=(-8 if on_left else 8, -2), textcoords="offset points",
-                ha="right" if on_left else "left", va="top", **st.font(style, "small"))
-    for text, side in ((f"◀ {_share(below)} lower", "right"),
-                       (f"{_share(100 - below)} higher ▶", "left")):
-        ax.annotate(text, (risk, 0.86), xycoords=trans, xytext=(-5 if side == "right" else 5, 0),
-                    textcoords="offset points", ha=side, va="top", **st.font(style, "small"))
+                ha="right" if on_left else "left", va="top", linespacing=1.3,
+                **st.font(style, "small"))
 
 
 # --- contributions --------------------------------------------------------------------

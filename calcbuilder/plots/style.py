@@ -135,8 +135,9 @@ NONEVENTS = AreaLook("#dcdcdc", "#6b6b6b", "....")
 RAISES = AreaLook("#7a2e24", "#3d1712", "///")
 LOWERS = AreaLook("#cfe0ef", "#4f6f8f", "..")
 BAND = "#1d4e89"  # confidence bands, drawn with alpha
-BAND_ALPHA = 0.16
-RANGE_FILL = "#efe9d9"  # the authors' reasonable threshold range
+BAND_ALPHA = 0.26
+RANGE_FILL = "#f6f3ea"  # the authors' reasonable threshold range (lighter than any band)
+RANGE_EDGE = "#b9ad86"  # thin solid lines at its two ends
 AFFECTED = AreaLook("#1d3557", "#0b1626", "")
 UNAFFECTED = AreaLook("#ffffff", "#8a8a8a", "")
 
@@ -258,9 +259,10 @@ def finish(fig: Figure, style: FigureStyle, *, notes: Sequence[str] = (),
     width, height = fig.get_size_inches()
     line_h = style.small * 1.3 / 72.0 / height  # one line of small text, figure fraction
     top = 0.0
+    bold = 1.12  # bold DejaVu Sans is about this much wider than regular
     share_row = bool(title) and synthetic and (
-        len(title or "") * style.title * 0.62 + len(SYNTHETIC_STAMP) * style.small * 0.6
-        < width * 72.0 * 0.92)
+        text_width_pt(title or "", style.title) * bold
+        + text_width_pt(SYNTHETIC_STAMP, style.small) + 24.0 < width * 72.0 * 0.96)
     if synthetic:
         fig.text(0.99, 1.0 - 0.35 * line_h, SYNTHETIC_STAMP, ha="right", va="top",
                  style="italic", gid="synthetic-stamp",
@@ -268,9 +270,10 @@ def finish(fig: Figure, style: FigureStyle, *, notes: Sequence[str] = (),
                        "linewidth": style.thin}, **font(style, "small"))
         top += 0.0 if share_row else 1.9 * line_h
     if title:
-        fig.text(0.01, 1.0 - top - 0.2 * line_h, title, ha="left", va="top", weight="bold",
-                 gid="figure-title", **font(style, "title"))
-        top += (style.title / style.small) * 1.45 * line_h
+        title_lines = wrap_text(title, width * 0.96 / bold, style.title)
+        fig.text(0.01, 1.0 - top - 0.35 * line_h, "\n".join(title_lines), ha="left", va="top",
+                 weight="bold", linespacing=1.1, gid="figure-title", **font(style, "title"))
+        top += (style.title / style.small) * (0.3 + 1.15 * len(title_lines)) * line_h
     lines = [ln for note in notes for ln in wrap_text(note, width * 0.96, style.small)]
     bottom = (len(lines) + 0.4) * line_h if lines else 0.0
     if lines:

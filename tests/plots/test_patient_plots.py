@@ -105,6 +105,8 @@ def test_risk_position_beyond_the_cohort_and_tiny_shares():
     assert "less than 1%" in notes_text(fig)
     fig = plots.risk_position_figure([0, 0.1, 0.2], [5, 5], 0.9)
     assert fig.axes[0].get_xlim()[1] >= 0.9
+    assert notes_text(fig).startswith("All of the 10 patients")
+    assert notes_text(plots.risk_position_figure([0.1, 0.2], [5], 0.05)).startswith("None of")
 
 
 @pytest.mark.parametrize(
