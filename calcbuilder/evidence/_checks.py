@@ -5,7 +5,8 @@ Rules (documented in ``docs/recipe.md``):
 * Error: a predictor with a single value in every row used (a number with no
   spread, a yes/no always the same, a choice with one value), and a listed
   choice that never occurs: its effect cannot be estimated.
-* Warning, near-constant: one value in more than 99% of the rows used.
+* Warning, near-constant: one value in more than 99% of the rows used, or a
+  number whose standard deviation is below 1e-9 times its largest absolute value.
 * Warning, collinear: between number and yes/no inputs, a Pearson correlation
   with ``|r| > 0.95`` (the pair is named), or, for an input in no such pair, a
   variance inflation factor above 10 (the diagonal of the inverse correlation
@@ -30,6 +31,7 @@ __all__ = [
     "COLLINEAR_R",
     "MIN_EVENTS_PER_PARAMETER",
     "NEAR_CONSTANT_SHARE",
+    "TINY_SPREAD",
     "VIF_LIMIT",
     "collinearity_warnings",
     "constant_checks",
@@ -39,6 +41,7 @@ __all__ = [
 NEAR_CONSTANT_SHARE = 0.99
 COLLINEAR_R = 0.95
 VIF_LIMIT = 10.0
+TINY_SPREAD = 1e-9
 MIN_EVENTS_PER_PARAMETER = 10.0
 
 
@@ -76,12 +79,22 @@ def constant_checks(
                 problems.append(f"column '{entry.column}': the choice '{choice}' does not occur "
                                 "in the rows used; its effect cannot be estimated: remove it "
                                 f"from {entry.path}.choices or merge it with another choice")
+        if entry.kind == "number" and _tiny_spread(x):
+            warnings.append(f"column '{entry.column}': almost no spread (standard deviation "
+                            f"{np.std(x):.3g} around {np.mean(x):.6g}); its effect will be "
+                            "estimated poorly: check the column and its unit")
         share = counts[top] / n
         if share > NEAR_CONSTANT_SHARE:
             warnings.append(f"column '{entry.column}': one value ({top_text}) in "
                             f"{100 * share:.1f}% of the rows used ({counts[top]} of {n}); its "
                             "effect will be estimated poorly")
     return problems, warnings
+
+
+def _tiny_spread(x: NDArray[Any]) -> bool:
+    """Standard deviation below ``TINY_SPREAD`` times the size of the values."""
+    values = np.asarray(x, dtype=float)
+    return bool(np.std(values) <= TINY_SPREAD * max(1.0, float(np.max(np.abs(values)))))
 
 
 def collinearity_warnings(

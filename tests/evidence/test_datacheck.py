@@ -430,3 +430,11 @@ def test_named_level_missing_from_data_choices() -> None:
         "inputs[asa].transform.level: 'V' is not among the choices found in the data (I-II, III, "
         "IV)")
 
+
+
+def test_number_with_almost_no_spread_warning() -> None:
+    df = clean()
+    df["sodium"] = 139.0 + np.arange(len(df)) * 1e-12
+    prepared = prepare(df, recipe_with())
+    assert any(w.startswith("column 'sodium': almost no spread (standard deviation 4.33e-10 "
+                            "around 139)") for w in prepared.warnings)
