@@ -223,3 +223,24 @@ def test_render_script_writes_every_png(tmp_path):
     assert len(pngs) == 24
     for png in pngs:
         assert np.asarray(Image.open(png).convert("L"), dtype=float).std() > 5, png.name
+
+
+def test_figures_go_into_a_qt_canvas(qtbot, builders):
+    from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
+
+    canvas = FigureCanvasQTAgg(builders["decision"](synthetic=True))
+    qtbot.addWidget(canvas)
+    canvas.resize(640, 460)
+    canvas.show()
+    canvas.draw()
+    grab = canvas.grab().toImage()
+    assert grab.width() > 0
+    assert len({grab.pixel(x, 230) for x in range(0, grab.width(), 4)}) > 3  # not blank
+
+
+def test_figures_save_as_pdf_with_embedded_dejavu(builders):
+    buf = io.BytesIO()
+    builders["icons"](synthetic=True).savefig(buf, format="pdf")
+    data = buf.getvalue()
+    assert data.startswith(b"%PDF")
+    assert b"DejaVuSans" in data
