@@ -148,8 +148,9 @@ def _unit_hint(bad: NDArray[np.float64], entry: InputEntry) -> str:
     limits = entry.spec.limits
     assert limits is not None
     for alt in entry.spec.alt_units:
-        canonical = bad * alt.factor + alt.offset
-        fits = (canonical >= limits.low) & (canonical <= limits.high)
+        with np.errstate(over="ignore", invalid="ignore"):
+            canonical = bad * alt.factor + alt.offset
+            fits = (canonical >= limits.low) & (canonical <= limits.high)
         if fits.any():
             shown = ", ".join(format_number(v) for v in bad[fits][:MAX_LISTED])
             return (f"; check the unit: {shown} would be plausible in {alt.unit} — the data must "
