@@ -81,17 +81,28 @@ class Problem(Protocol):
         ...
 
 
+def _scaled(matrices: FloatArray) -> tuple[FloatArray, FloatArray, BoolArray]:
+    """Symmetric positive matrices scaled to unit diagonal, the square-root diagonal, and
+    whether each is numerically non-singular (eigenvalue ratio above ``RANK_TOL``)."""
+    q = matrices.shape[1]
+    diag = np.sqrt(np.einsum("kii->ki", matrices))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        scaled = matrices / diag[:, :, None] / diag[:, None, :]
+    fine = np.isfinite(scaled).all(axis=(1, 2))
+    scaled = np.where(fine[:, None, None], scaled, np.eye(q))
+    eig = np.linalg.eigvalsh(scaled)
+    return scaled, diag, fine & (eig[:, 0] > RANK_TOL * eig[:, -1])
+
+
 def _solve(info: FloatArray, score: FloatArray) -> tuple[FloatArray, BoolArray]:
-    try:
-        step = np.linalg.solve(info, score[..., None])[..., 0]
-    except np.linalg.LinAlgError:  # one singular member spoils the batched call
-        step = np.zeros_like(score)
-        for i in range(score.shape[0]):
-            try:
-                step[i] = np.linalg.solve(info[i], score[i])
-            except np.linalg.LinAlgError:
-                step[i] = np.nan
-    return np.asarray(step, dtype=np.float64), np.isfinite(step).all(axis=1)
+    """Newton steps ``info^-1 score``, solved in unit-diagonal scaling; ``nan`` where the
+    information is numerically singular (rank-deficient, or saturated by separation)."""
+    scaled, diag, ok = _scaled(info)
+    step = np.full_like(score, np.nan)
+    if ok.any():
+        rhs = score[ok] / diag[ok]
+        step[ok] = np.linalg.solve(scaled[ok], rhs[..., None])[..., 0] / diag[ok]
+    return step, ok & np.isfinite(step).all(axis=1)
 
 
 def newton(
@@ -117,7 +128,9 @@ def newton(
         step, ok = _solve(info, score)
         for r in rows[~ok]:
             active[r] = False
-            reasons[r] = "the information matrix became singular"
+            reasons[r] = (
+                "the information matrix became singular (fitted risks reach 0 or 1: separation)"
+            )
         rows, step = rows[ok], step[ok]
         reach = problem.reach(rows, step)
         beta[rows] += step * _step_length(problem, rows, beta[rows], step, reach)[:, None]
@@ -269,14 +282,7 @@ class _DesignProblem:
 
 def _rank_failures(design: Design, W: FloatArray) -> BoolArray:
     """Rows whose weighted design is rank-deficient (scaled Gram matrix nearly singular)."""
-    q = design.Z.shape[1]
-    gram = _symmetric(W @ design.pairs.T, design.iu, q)
-    diag = np.sqrt(np.einsum("kii->ki", gram))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        scaled = gram / diag[:, :, None] / diag[:, None, :]
-    bad = ~np.isfinite(scaled).all(axis=(1, 2))
-    eig = np.linalg.eigvalsh(np.where(bad[:, None, None], np.eye(q), scaled))
-    return bad | (eig[:, 0] <= RANK_TOL * eig[:, -1])
+    return ~_scaled(_symmetric(W @ design.pairs.T, design.iu, design.Z.shape[1]))[2]
 
 
 def fit_chunk(
