@@ -200,6 +200,9 @@ def _keys(table: Mapping[str, Any], allowed: Iterable[str], path: str, problems:
         if key not in allowed:
             close = difflib.get_close_matches(key, allowed, n=1, cutoff=0.6)
             hint = f" (did you mean '{close[0]}'?)" if close else ""
+            if path and key in TOP_KEYS:
+                hint = (f" (in TOML a top-level key such as {key} must come before the "
+                        "first [table] header)")
             problems.add(join(path, key), f"unknown key '{key}'{hint}; allowed here: "
                          f"{', '.join(allowed)}")
 
