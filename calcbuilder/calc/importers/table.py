@@ -243,6 +243,10 @@ def _level_labels(entry: TermEntry, spec: InputSpec | None,
     choices = [c.value for c in spec.choices]
     if "levels" in t:
         return list(t["levels"]) if isinstance(t["levels"], list) else "levels must be a list"
+    unknown = [row.term for row in group if row.label not in choices]
+    if unknown:
+        return (f"{', '.join(unknown)}: not a choice of input {spec.id!r} (choices: "
+                f"{', '.join(choices)})")
     reference = t.get("reference")
     if reference is None:
         named = {row.label for row in group}
