@@ -86,8 +86,8 @@ def _check(pt: float, what: str) -> float:
     if isinstance(pt, bool) or not isinstance(pt, int | float):
         raise ThresholdError(f"{what}: must be a number; got {pt!r}")
     if not (math.isfinite(pt) and 0.0 < pt < 1.0):
-        raise ThresholdError(f"{what} gives a threshold of {pt!r}; a decision threshold must "
-                             "lie strictly between 0% and 100%")
+        raise ThresholdError(f"decision threshold from {what}: must lie strictly between 0% "
+                             "and 100%")
     return float(pt)
 
 
@@ -120,7 +120,7 @@ class Threshold:
         """From a percentage, e.g. 15 for 15%."""
         if isinstance(percent, bool) or not isinstance(percent, int | float):
             raise ThresholdError(f"percentage: must be a number; got {percent!r}")
-        return cls(_check(percent / 100.0, f"the percentage {percent!r}%"))
+        return cls(_check(percent / 100.0, f"the percentage {percent:g}%"))
 
     @classmethod
     def from_number_willing(cls, n: float) -> Threshold:
@@ -128,7 +128,7 @@ class Threshold:
         if isinstance(n, bool) or not isinstance(n, int | float) or not n > 1:
             raise ThresholdError(f"number willing to intervene: must be a number above 1 "
                                  f"(1 person would mean a threshold of 100%); got {n!r}")
-        return cls(_check(1.0 / n, f"the number {n!r}"))
+        return cls(_check(1.0 / n, f"1 in {n:g}"))
 
     @classmethod
     def from_harm_benefit(cls, harm: float, benefit: float = 1.0) -> Threshold:
@@ -138,7 +138,7 @@ class Threshold:
                     or not (math.isfinite(value) and value > 0):
                 raise ThresholdError(f"harm : benefit ratio: {name} must be a positive number; "
                                      f"got {value!r}")
-        return cls(_check(harm / (harm + benefit), f"the ratio {harm!r} : {benefit!r}"))
+        return cls(_check(harm / (harm + benefit), f"the ratio {harm:g} : {benefit:g}"))
 
     # --- the three forms as numbers ------------------------------------------------
 
