@@ -106,7 +106,7 @@ class Threshold:
     pt: float
 
     def __post_init__(self) -> None:
-        _check(self.pt, "threshold")
+        _check(self.pt, f"the proportion {self.pt!r}")
 
     # --- constructors -------------------------------------------------------------
 
