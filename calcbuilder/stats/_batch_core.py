@@ -184,25 +184,22 @@ def _softplus_sum(eta: FloatArray, W: FloatArray | None) -> FloatArray:
     )
 
 
-def _logistic_parts(eta: FloatArray, event: BoolArray) -> tuple[FloatArray, FloatArray]:
-    """Residual ``y - p`` and weight ``p(1-p)`` of ``p = 1/(1+exp(-eta))``, accurate in both tails.
+def _signed_parts(t: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """``|y - p|`` and ``p(1-p)`` from the signed linear predictor ``t = (2y-1) eta``.
 
-    With ``e = exp(-|eta|)`` and ``d = 1/(1+e)``, the smaller of ``p`` and ``1-p`` is
-    ``e d`` and the larger ``d``, so ``|y - p|`` is ``e d`` when the outcome lies on the
-    side of the linear predictor and ``d`` otherwise; ``p(1-p) = e d^2``. No difference
-    of nearly equal numbers is formed, so under separation the score stays accurate and
-    the iterations keep diverging instead of stopping on rounding noise.
+    ``|y - p| = 1/(1+exp(t))`` and ``p(1-p) = exp(t)/(1+exp(t))^2`` hold for both
+    outcomes and involve no difference of nearly equal numbers, so the score stays
+    accurate in the tails: under separation the iterations keep diverging instead of
+    stopping on rounding noise. ``t`` is capped at 700 (``exp`` stays finite; the
+    values are then below 1e-304). Works in place on ``t`` (numpy ``exp``).
     """
-    e = np.abs(eta)
-    np.negative(e, out=e)
-    np.exp(e, out=e)
-    d = e + 1.0
-    np.reciprocal(d, out=d)
-    e *= d  # e d
-    resid = np.where((eta >= 0) == event, e, d)
-    np.negative(resid, out=resid, where=~event)
-    e *= d  # e d^2
-    return resid, e
+    np.minimum(t, 700.0, out=t)
+    np.exp(t, out=t)
+    q = t + 1.0
+    np.reciprocal(q, out=q)
+    t *= q
+    t *= q
+    return q, t
 
 
 # ----------------------------------------------------------------------------------------
@@ -218,19 +215,20 @@ class Design:
     """
 
     Z: FloatArray
+    signed: FloatArray  # (2y - 1) Z: its products with coefficients are signed predictors
     pairs: FloatArray
     iu: tuple[IntArray, IntArray]
     zmax: FloatArray  # largest absolute value in each column
 
     @classmethod
-    def build(cls, Z: FloatArray) -> Design:
+    def build(cls, Z: FloatArray, y: FloatArray) -> Design:
         i, j = np.triu_indices(Z.shape[1])
         iu = (i.astype(np.intp), j.astype(np.intp))
         cols = np.ascontiguousarray(Z.T)
         pairs = np.empty((i.size, Z.shape[0]))
         for c in range(i.size):
             np.multiply(cols[i[c]], cols[j[c]], out=pairs[c])
-        return cls(Z, pairs, iu, np.abs(Z).max(axis=0))
+        return cls(Z, Z * (2.0 * y - 1.0)[:, None], pairs, iu, np.abs(Z).max(axis=0))
 
 
 def _symmetric(flat: FloatArray, iu: tuple[IntArray, IntArray], q: int) -> FloatArray:
@@ -244,32 +242,30 @@ def _symmetric(flat: FloatArray, iu: tuple[IntArray, IntArray], q: int) -> Float
 class _DesignProblem:
     design: Design
     W: FloatArray
-    WyZ: FloatArray
-    event: BoolArray
 
     def evaluate(self, rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray]:
-        Z, pairs, W = self.design.Z, self.design.pairs, self.W
+        Zs, pairs, W = self.design.signed, self.design.pairs, self.W
         every = rows.size == W.shape[0]
-        score = np.zeros((rows.size, Z.shape[1]))
+        score = np.zeros((rows.size, Zs.shape[1]))
         info = np.zeros((rows.size, pairs.shape[0]))
         width = _block_width(rows.size)
-        for s in range(0, Z.shape[0], width):
-            Zb = Z[s : s + width]
+        for s in range(0, Zs.shape[0], width):
+            Zb = Zs[s : s + width]
             Wb = W[:, s : s + width] if every else W[rows, s : s + width]
-            r, v = _logistic_parts(beta @ Zb.T, self.event[s : s + width])
-            r *= Wb
+            q, v = _signed_parts(beta @ Zb.T)
+            q *= Wb
             v *= Wb
-            score += r @ Zb
+            score += q @ Zb  # sum of w (y - p) z, as (y - p) z = |y - p| (2y - 1) z
             info += v @ pairs[:, s : s + width].T
-        return score, _symmetric(info, self.design.iu, Z.shape[1])
+        return score, _symmetric(info, self.design.iu, Zs.shape[1])
 
     def loglik(self, rows: IntArray, beta: FloatArray) -> FloatArray:
-        Z, W = self.design.Z, self.W[rows]
-        ll = np.einsum("kj,kj->k", self.WyZ[rows], beta)
+        Zs, W = self.design.signed, self.W[rows]
+        ll = np.zeros(rows.size)
         width = _block_width(rows.size)
-        for s in range(0, Z.shape[0], width):
-            ll -= _softplus_sum(beta @ Z[s : s + width].T, W[:, s : s + width])
-        return np.asarray(ll, dtype=np.float64)
+        for s in range(0, Zs.shape[0], width):  # log-likelihood = -sum w log(1 + exp(-t))
+            ll -= _softplus_sum(-(beta @ Zs[s : s + width].T), W[:, s : s + width])
+        return ll
 
     def reach(self, rows: IntArray, step: FloatArray) -> FloatArray:
         del rows  # one design for every row
@@ -301,7 +297,7 @@ def fit_chunk(
         reasons[r] = "the weighted design is rank-deficient (a column constant or duplicated)"
     if fine.size:
         Wf = W if fine.size == k else W[fine]
-        problem = _DesignProblem(design, Wf, Wf @ (design.Z * y[:, None]), y == 1)
+        problem = _DesignProblem(design, Wf)
         b, c, it, why = newton(problem, beta0[fine], max_iter)
         coef[fine], conv[fine], iters[fine] = b, c, it
         for r, text in zip(fine, why, strict=True):
@@ -313,7 +309,7 @@ def fit_rows(
     Z: FloatArray, y: FloatArray, W: FloatArray, beta0: FloatArray, max_iter: int
 ) -> tuple[FloatArray, BoolArray, IntArray, list[str]]:
     """Fit every row of ``W`` in chunks, BLAS held to one thread."""
-    design = Design.build(Z)
+    design = Design.build(Z, y)
     step = fit_rows_per_chunk(y.size)
     parts = []
     with blas_threads():
@@ -407,34 +403,49 @@ class _SlopeProblem:
     """Two-parameter logistic ``a + b L`` per row of ``L``; ``W is None`` means unit weights."""
 
     L: FloatArray
+    signed: FloatArray  # (2y - 1) L
+    sign: FloatArray  # 2y - 1
     W: FloatArray | None
-    Sy: FloatArray  # weighted sums of y and y L per row
     lo: FloatArray
     hi: FloatArray
-    event: BoolArray
 
     @classmethod
     def build(cls, y: FloatArray, L: FloatArray, W: FloatArray | None) -> _SlopeProblem:
-        wy = y[None, :] if W is None else W * y
-        Sy = np.stack([np.broadcast_to(wy.sum(axis=1), L.shape[:1]), (wy * L).sum(axis=1)], axis=1)
-        return cls(L, W, Sy, L.min(axis=1), L.max(axis=1), y == 1)
+        sign = 2.0 * y - 1.0
+        return cls(L, L * sign, sign, W, L.min(axis=1), L.max(axis=1))
+
+    def _t(self, rows: IntArray, beta: FloatArray, s: int, width: int) -> FloatArray:
+        every = rows.size == self.L.shape[0]
+        t = (self.signed[:, s : s + width] if every else self.signed[rows, s : s + width]) * beta[
+            :, 1:2
+        ]
+        t += beta[:, 0:1] * self.sign[s : s + width]
+        return t
+
+    def _w(self, rows: IntArray, s: int, width: int) -> FloatArray | None:
+        W = self.W
+        if W is None:
+            return None
+        return (
+            W[:, s : s + width]
+            if W.shape[0] == 1 or rows.size == W.shape[0]
+            else W[rows, s : s + width]
+        )
 
     def evaluate(self, rows: IntArray, beta: FloatArray) -> tuple[FloatArray, FloatArray]:
-        L, W = self.L, self.W
-        every = rows.size == L.shape[0]
+        every = rows.size == self.L.shape[0]
         score, info = np.zeros((rows.size, 2)), np.zeros((rows.size, 3))
         width = _block_width(rows.size)
-        for s in range(0, L.shape[1], width):
-            Lb = L[:, s : s + width] if every else L[rows, s : s + width]
-            eta = Lb * beta[:, 1:2]
-            eta += beta[:, 0:1]
-            r, v = _logistic_parts(eta, self.event[s : s + width])
-            if W is not None:
-                Wb = W[:, s : s + width] if (every or W.shape[0] == 1) else W[rows, s : s + width]
-                r *= Wb
+        for s in range(0, self.L.shape[1], width):
+            Lb = self.L[:, s : s + width] if every else self.L[rows, s : s + width]
+            Ls = self.signed[:, s : s + width] if every else self.signed[rows, s : s + width]
+            q, v = _signed_parts(self._t(rows, beta, s, width))
+            Wb = self._w(rows, s, width)
+            if Wb is not None:
+                q *= Wb
                 v *= Wb
-            score[:, 0] += r.sum(axis=1)
-            score[:, 1] += np.einsum("kn,kn->k", r, Lb)
+            score[:, 0] += q @ self.sign[s : s + width]
+            score[:, 1] += np.einsum("kn,kn->k", q, Ls)
             info[:, 0] += v.sum(axis=1)
             info[:, 1] += np.einsum("kn,kn->k", v, Lb)
             v *= Lb
@@ -442,15 +453,13 @@ class _SlopeProblem:
         return score, _symmetric(info, (np.array([0, 0, 1]), np.array([0, 1, 1])), 2)
 
     def loglik(self, rows: IntArray, beta: FloatArray) -> FloatArray:
-        L = self.L[rows]
-        W = None if self.W is None else (self.W if self.W.shape[0] == 1 else self.W[rows])
-        ll = np.einsum("kj,kj->k", self.Sy[rows], beta)
+        ll = np.zeros(rows.size)
         width = _block_width(rows.size)
-        for s in range(0, L.shape[1], width):
-            eta = L[:, s : s + width] * beta[:, 1:2]
-            eta += beta[:, 0:1]
-            ll -= _softplus_sum(eta, None if W is None else W[:, s : s + width])
-        return np.asarray(ll, dtype=np.float64)
+        for s in range(0, self.L.shape[1], width):
+            t = self._t(rows, beta, s, width)
+            np.negative(t, out=t)
+            ll -= _softplus_sum(t, self._w(rows, s, width))
+        return ll
 
     def reach(self, rows: IntArray, step: FloatArray) -> FloatArray:
         a, b = step[:, 0], step[:, 1]

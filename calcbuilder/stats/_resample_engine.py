@@ -164,9 +164,10 @@ def check_count(value: object, name: str, minimum: int) -> int:
 
 def bootstrap_counts(rng: np.random.Generator, n: int, k: int) -> FloatArray:
     """``k`` rows of bootstrap counts: one ``rng.integers(0, n, n)`` per row, then bincount."""
-    return np.stack([np.bincount(rng.integers(0, n, n), minlength=n) for _ in range(k)]).astype(
-        np.float64
-    )
+    counts = np.empty((k, n))
+    for i in range(k):
+        counts[i] = np.bincount(rng.integers(0, n, n), minlength=n)
+    return counts
 
 
 class Progress:
@@ -222,7 +223,7 @@ class FastEngine:
 
     def __init__(self, X: ArrayLike, y: FloatArray, procedure: PlainLogistic) -> None:
         self.y = y
-        self.design = Design.build(design_matrix(X, y.size))
+        self.design = Design.build(design_matrix(X, y.size), y)
         self.Z = self.design.Z
         self.start = fit_logistic(self.Z[:, 1:], y).coef  # clear errors on the original data
         self.max_iter = check_count(procedure.max_iter, "PlainLogistic.max_iter", 1)
