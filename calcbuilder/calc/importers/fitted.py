@@ -75,15 +75,20 @@ def _check_result(result: Any) -> Any:
 
     model = getattr(result, "model", None)
     if isinstance(model, GLM):
-        if not isinstance(model.family, Binomial) or not isinstance(model.family.link,
-                                                                     LogitLink):
+        # exact type: statsmodels' Probit, Cauchy and other CDF links subclass Logit
+        if not isinstance(model.family, Binomial) or type(model.family.link) is not LogitLink:
             raise ModelImportError(f"the fitted GLM has family {type(model.family).__name__} "
                                    f"with link {type(model.family.link).__name__}; calcbuilder "
                                    "imports logistic regression (Binomial, logit link)")
-    elif not isinstance(model, Logit):
+    elif type(model) is not Logit:
         raise ModelImportError(f"cannot import {type(model).__name__} results; calcbuilder "
                                "imports smf.logit(...).fit() and smf.glm(..., family="
                                "Binomial()).fit() results")
+    retvals = getattr(result, "mle_retvals", None) or {}
+    if not bool(getattr(result, "converged", retvals.get("converged", True))):
+        raise ModelImportError("the fit did not converge, so its coefficients are not the "
+                               "model's estimates; refit until it converges (more iterations, "
+                               "rescaled inputs) and import that")
     for name in ("offset", "exposure"):
         if getattr(model, name, None) is not None:
             raise ModelImportError(f"the model was fitted with an {name}; a calculator has no "
