@@ -98,7 +98,7 @@ class ClinicWindow(QMainWindow):
         self.setWindowTitle("calcbuilder clinic form")
         self.setAcceptDrops(True)
         self.resize(1360, 900)
-        self._trusted = trusted
+        self._trusted = trusted if trusted is not None else TrustedKeys()
         self.session: ClinicSession | None = None
         self.body: FormBody | None = None
         self.header = HeaderStrip()
@@ -166,13 +166,14 @@ class ClinicWindow(QMainWindow):
             self._refuse(Path(path).name, f"the file could not be read ({exc.strerror or exc}).")
             return False
         if loaded.state is TrustState.TAMPERED:
-            self._refuse(loaded.calculator.about.title, loaded.verification.message)
+            self._refuse(Path(path).name, loaded.verification.message, loaded.fingerprint)
             return False
         self._show_form(loaded)
         return True
 
-    def _refuse(self, title: str, explanation: str) -> None:
-        self.header.show_refused(title, explanation)
+    def _refuse(self, file_name: str, explanation: str, fingerprint: str | None = None
+                ) -> None:
+        self.header.show_refused(file_name, explanation, fingerprint)
         self.welcome.setText("No risk can be computed with this file. Open another "
                              "calculator file, or ask its author for a fresh copy.")
         self.pages.setCurrentWidget(self.welcome)

@@ -1,7 +1,8 @@
 """Evidence: how well the model did, on whom and when, and what it is not for.
 
-``evidenceSummary`` is a table with one column per evidence set (kind, data,
-period, population, size, the stored metrics with their intervals);
+``evidenceSummary`` holds one box per evidence set, most trustworthy first
+(objectName ``evidence_<id>``: kind, data and period, population, size, the
+stored metrics with their intervals);
 ``calibrationSet`` chooses which set's calibration plot ``calibrationFigure``
 shows (the most trustworthy first); ``limitations`` lists the target population,
 the exclusions and the prediction horizon. Values are shown as stored in the
@@ -13,12 +14,12 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (
-    QAbstractItemView,
     QComboBox,
-    QHeaderView,
-    QTableWidget,
-    QTableWidgetItem,
+    QFormLayout,
+    QGroupBox,
+    QLabel,
     QVBoxLayout,
     QWidget,
 )
@@ -27,7 +28,7 @@ from ..calc.evidence_sets import TRUST_ORDER, EvidenceSet
 from ..clinic.benefit import EVIDENCE_KIND_WORDS
 from ..clinic.session import ClinicSession
 from .figures import FigureBox
-from .look import SYMBOL, state_label
+from .look import SYMBOL, heading, state_label
 
 __all__ = ["EvidencePanel", "metric_text"]
 
@@ -49,23 +50,31 @@ def metric_text(metric: Mapping[str, Any] | None) -> str:
     return text.replace("-", "−")
 
 
-def _rows(sets: tuple[EvidenceSet, ...]) -> list[tuple[str, list[str]]]:
-    def dataset(e: EvidenceSet, key: str) -> str:
-        return str(e.raw["dataset"].get(key) or "not stated")
+def _set_lines(e: EvidenceSet) -> list[tuple[str, str]]:
+    """One evidence set as (name, text) lines: what, where, when, who, how many, how well."""
+    ds = e.raw["dataset"]
+    where = ", ".join(str(ds[k]) for k in ("name", "period") if ds.get(k))
+    lines = [("Kind", EVIDENCE_KIND_WORDS.get(e.kind, e.kind)),
+             ("Data", where or "not stated"),
+             ("Population", str(ds.get("population") or "not stated")),
+             ("People", f"{e.n:,}, of whom {e.events:,} with the outcome")]
+    lines += [(name, metric_text(e.metric(key))) for key, name in _METRICS]
+    extra = sorted(set(e.raw.get("metrics", {})) - {k for k, _ in _METRICS})
+    lines += [(key.replace("_", " ").capitalize(), metric_text(e.metric(key))) for key in extra]
+    return lines
 
-    rows = [
-        ("Kind", [EVIDENCE_KIND_WORDS.get(e.kind, e.kind) for e in sets]),
-        ("Data", [dataset(e, "name") for e in sets]),
-        ("Period", [dataset(e, "period") for e in sets]),
-        ("Population", [dataset(e, "population") for e in sets]),
-        ("People (with the outcome)", [f"{e.n:,} ({e.events:,})" for e in sets]),
-    ]
-    for key, name in _METRICS:
-        rows.append((name, [metric_text(e.metric(key)) for e in sets]))
-    extra = sorted({k for e in sets for k in e.raw.get("metrics", {})} - {k for k, _ in _METRICS})
-    rows.extend((key.replace("_", " ").capitalize(), [metric_text(e.metric(key)) for e in sets])
-                for key in extra)
-    return rows
+
+def _set_box(e: EvidenceSet) -> QGroupBox:
+    box = QGroupBox(e.label)
+    box.setObjectName(f"evidence_{e.id}")
+    form = QFormLayout(box)
+    form.setRowWrapPolicy(QFormLayout.RowWrapPolicy.WrapLongRows)
+    for name, text in _set_lines(e):
+        value = QLabel(text)
+        value.setWordWrap(True)
+        value.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        form.addRow(name, value)
+    return box
 
 
 def _by_trust(sets: tuple[EvidenceSet, ...]) -> list[EvidenceSet]:
@@ -81,7 +90,12 @@ class EvidencePanel(QWidget):
         self.setObjectName("evidencePanel")
         self._session = session
         calc = session.calculator
-        self.summary = self._summary_table(calc.evidence)
+        self.summary = QWidget()
+        self.summary.setObjectName("evidenceSummary")
+        sets_box = QVBoxLayout(self.summary)
+        sets_box.setContentsMargins(0, 0, 0, 0)
+        for e in _by_trust(calc.evidence):
+            sets_box.addWidget(_set_box(e))
         self.chooser = QComboBox()
         self.chooser.setObjectName("calibrationSet")
         self.chooser.setAccessibleName("Evidence set for the calibration plot")
@@ -90,48 +104,30 @@ class EvidencePanel(QWidget):
         for e in self._calibrated:
             self.chooser.addItem(e.label, e.id)
         self.figure = FigureBox("This calculator holds no calibration curve.",
-                                name="calibrationFigure", min_height=360)
+                                name="calibrationFigure", min_height=40)
         self.limitations = state_label(self._limitations_text(), "ok", "limitations")
         box = QVBoxLayout(self)
         if not calc.evidence:
             box.addWidget(state_label(f"{SYMBOL['warning']} This calculator holds no evidence "
                                       "of its performance.", "warning", "noEvidence"))
+        box.addWidget(heading("How well the model did, and on whom"))
         box.addWidget(self.summary)
-        box.addWidget(state_label("Calibration: estimated against observed risk", "ok"))
+        box.addWidget(heading("Calibration: estimated against observed risk"))
         box.addWidget(self.chooser)
-        box.addWidget(self.figure, 1)
+        box.addWidget(self.figure)
+        box.addWidget(heading("Who this calculator is for"))
         box.addWidget(self.limitations)
+        box.addStretch(1)
         self.chooser.currentIndexChanged.connect(self._draw)
         self.chooser.setVisible(bool(self._calibrated))
         self._draw()
-
-    @staticmethod
-    def _summary_table(sets: tuple[EvidenceSet, ...]) -> QTableWidget:
-        rows = _rows(sets)
-        table = QTableWidget(len(rows), len(sets))
-        table.setObjectName("evidenceSummary")
-        table.setHorizontalHeaderLabels([e.label for e in sets])
-        table.setVerticalHeaderLabels([name for name, _ in rows])
-        table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
-        table.setWordWrap(True)
-        table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)
-        for i, (_name, cells) in enumerate(rows):
-            for j, text in enumerate(cells):
-                item = QTableWidgetItem(text)
-                item.setToolTip(text)
-                table.setItem(i, j, item)
-        table.resizeRowsToContents()
-        table.setFixedHeight(table.horizontalHeader().height()
-                             + sum(table.rowHeight(i) for i in range(len(rows))) + 4)
-        table.setVisible(bool(sets))
-        return table
 
     def _limitations_text(self) -> str:
         about = self._session.calculator.about
         lines = [f"Built for: {about.population}.",
                  f"Estimates: {about.outcome}, {about.horizon}."]
         lines += [f"{SYMBOL['refused']} {text}" for text in about.exclusions]
-        return "Who this calculator is for\n" + "\n".join(lines)
+        return "\n".join(lines)
 
     def _draw(self) -> None:
         index = self.chooser.currentIndex()

@@ -105,7 +105,9 @@ class HeaderStrip(QFrame):
         top.addWidget(self.version)
         top.addStretch(1)
         top.addWidget(self.synthetic)
-        facts = QHBoxLayout()
+        self.facts = QWidget()
+        facts = QHBoxLayout(self.facts)
+        facts.setContentsMargins(0, 0, 0, 0)
         for widget in (self.signature, self.review_by, self.fingerprint):
             facts.addWidget(widget)
         facts.addStretch(1)
@@ -115,7 +117,7 @@ class HeaderStrip(QFrame):
         box.setSpacing(4)
         box.addLayout(top)
         box.addWidget(self.intended_use)
-        box.addLayout(facts)
+        box.addWidget(self.facts)
         box.addWidget(self.caution)
         box.addWidget(self.banner)
         box.addWidget(self.refusal)
@@ -129,6 +131,7 @@ class HeaderStrip(QFrame):
         for label in (self.signature, self.review_by, self.fingerprint):
             label.clear()
             label.setToolTip("")
+        self.facts.hide()
         self.synthetic.hide()
         self.banner.hide()
         self.refusal.hide()
@@ -146,17 +149,28 @@ class HeaderStrip(QFrame):
         self.fingerprint.setText(f"Fingerprint {info.fingerprint[:12]}…")
         self.fingerprint.setToolTip(f"SHA-256 of the calculator's content:\n{info.fingerprint}")
         self.fingerprint.setAccessibleDescription(info.fingerprint)
+        self.facts.show()
         self.synthetic.setText(f"{SYMBOL['synthetic']} SYNTHETIC, not for clinical use")
         self.synthetic.setVisible(info.synthetic)
         self.banner.setText("\n".join(f"{SYMBOL['banner']}  {b}" for b in info.banners))
         self.banner.setVisible(bool(info.banners))
         self.refusal.hide()
 
-    def show_refused(self, title: str, explanation: str) -> None:
-        """A file that must not be used: say so and why, in place of the usual facts."""
+    def show_refused(self, file_name: str, explanation: str, fingerprint: str | None = None
+                     ) -> None:
+        """A file that must not be used: say so and why, in place of the usual facts.
+
+        Nothing from inside a refused file (not even its title) is shown as fact,
+        only its file name and, when it could be computed, its fingerprint.
+        """
         self.show_empty()
-        self.title.setText(title)
+        self.title.setText(f"Refused: {file_name}")
         self.intended_use.set_full_text("This calculator file was refused; no risk can be shown.")
+        if fingerprint:
+            self.fingerprint.setText(f"Fingerprint {fingerprint[:12]}…")
+            self.fingerprint.setToolTip(f"SHA-256 of the file's content:\n{fingerprint}")
+            self.signature.setText(f"{SYMBOL['refused']} Signature check failed")
+            self.facts.show()
         self.refusal.setText(f"{SYMBOL['refused']}  REFUSED: {explanation}")
         self.refusal.show()
 

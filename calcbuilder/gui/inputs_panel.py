@@ -39,6 +39,7 @@ __all__ = ["NOT_ANSWERED", "InputView", "InputsPanel"]
 
 NOT_ANSWERED = "— not answered —"
 _ENTER_KEYS = (Qt.Key.Key_Return, Qt.Key.Key_Enter)
+_LABEL_WIDTH = 150  # pixels; longer labels wrap
 
 
 @dataclass(frozen=True)
@@ -63,7 +64,7 @@ def _value_widget(spec: InputSpec) -> QLineEdit | QComboBox:
     widget: QLineEdit | QComboBox
     if spec.kind == "number":
         widget = QLineEdit()
-        widget.setMaximumWidth(140)
+        widget.setMaximumWidth(120)
         if spec.developed is not None:
             low = format_number(spec.developed.low, decimals=spec.decimals)
             high = format_number(spec.developed.high, decimals=spec.decimals)
@@ -124,10 +125,15 @@ class InputsPanel(QWidget):
         self.setObjectName("inputs")
         self._rows: dict[str, _Row] = {}
         self._order: list[str] = []
+        self._labels: list[QLabel] = []
+        self._touched: set[str] = set()
+        self.value_edited.connect(lambda edited, _raw: self._touched.add(edited))
         layout = QVBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
-        for group, members in _grouped(specs):
-            box = QGroupBox(group or "Patient values")
+        groups = _grouped(specs)
+        ungrouped = "Patient values" if len(groups) == 1 else "Other values"
+        for group, members in groups:
+            box = QGroupBox(group or ungrouped)
             grid = QGridLayout(box)
             grid.setColumnStretch(1, 1)
             grid.setHorizontalSpacing(8)
@@ -135,6 +141,7 @@ class InputsPanel(QWidget):
                 self._add_row(grid, spec)
             layout.addWidget(box)
         layout.addStretch(1)
+        self._align_labels()
         self._chain_focus()
 
     # --- building ---------------------------------------------------------------------
@@ -152,6 +159,7 @@ class InputsPanel(QWidget):
         label = QLabel(spec.label + ("" if spec.required else " (optional)"))
         label.setBuddy(value)
         label.setWordWrap(True)
+        self._labels.append(label)
         row = grid.rowCount()
         grid.addWidget(label, row, 0, Qt.AlignmentFlag.AlignVCenter)
         line = QWidget()
@@ -181,6 +189,12 @@ class InputsPanel(QWidget):
         if unit is not None:
             unit.activated.connect(lambda _i: self.unit_changed.emit(input_id, unit.currentData()))
             unit.installEventFilter(self)
+
+    def _align_labels(self) -> None:
+        """One label width for every group, so the fields line up (long labels wrap)."""
+        widest = max((label.sizeHint().width() for label in self._labels), default=0)
+        for label in self._labels:
+            label.setFixedWidth(min(widest, _LABEL_WIDTH))
 
     def _chain_focus(self) -> None:
         chain: list[QWidget] = []
@@ -229,9 +243,15 @@ class InputsPanel(QWidget):
         return self._rows[self._order[0]].value if self._order else None
 
     def show_view(self, input_id: str, view: InputView) -> None:
-        """Show one input's messages and, after a unit change, its canonical value."""
+        """Show one input's messages and, after a unit change, its canonical value.
+
+        "Missing" is shown beside an input only once it was edited and left empty;
+        before that the estimate column lists what is still needed.
+        """
         row = self._rows[input_id]
-        text, state = _message_text(view.messages)
+        messages = view.messages if input_id in self._touched else tuple(
+            m for m in view.messages if m.code != "missing")
+        text, state = _message_text(messages)
         row.message.setText(text)
         row.message.setVisible(bool(text))
         set_state(row.message, state)
@@ -276,6 +296,7 @@ class InputsPanel(QWidget):
 
     def clear_values(self) -> None:
         """Empty every value and put every unit back to the canonical one (no signals)."""
+        self._touched.clear()
         for row in self._rows.values():
             if isinstance(row.value, QLineEdit):
                 row.value.clear()

@@ -14,6 +14,7 @@ __all__ = [
     "CAUTION_LINE",
     "STYLE_SHEET",
     "SYMBOL",
+    "heading",
     "set_state",
     "state_label",
 ]
@@ -64,7 +65,10 @@ QGroupBox {{ font-weight: bold; border: 1px solid #b9c4ca; margin-top: 14px;
 QGroupBox::title {{ subcontrol-origin: margin; left: 8px; padding: 0 4px; color: {_ACCENT}; }}
 QLabel[state="error"] {{ color: {_REFUSE_EDGE}; font-weight: bold; }}
 QLabel[state="warning"] {{ color: {_CAUTION_EDGE}; font-style: italic; }}
-QLabel[state="ok"], QLabel[state="note"] {{ color: {_MUTED}; }}
+QLabel[state="ok"] {{ color: {_INK}; }}
+QLabel[state="note"] {{ color: {_MUTED}; }}
+QLabel[state="heading"] {{ color: {_ACCENT}; font-weight: bold; font-size: 14px;
+    border-bottom: 1px solid #b9c4ca; padding-top: 6px; }}
 QLineEdit[state="error"] {{ border: 2px solid {_REFUSE_EDGE}; }}
 QLineEdit[state="warning"] {{ border: 2px dashed {_CAUTION_EDGE}; }}
 QLabel#risk {{ font-size: 30px; font-weight: bold; color: {_INK}; }}
@@ -86,6 +90,11 @@ def set_state(widget: QWidget, state: str) -> None:
     style = widget.style()
     style.unpolish(widget)
     style.polish(widget)
+
+
+def heading(text: str) -> QLabel:
+    """A section heading inside a panel."""
+    return state_label(text, "heading")
 
 
 def state_label(text: str, state: str, name: str = "") -> QLabel:

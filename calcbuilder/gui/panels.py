@@ -137,7 +137,7 @@ class FormBody(QWidget):
         columns.addWidget(_scroll(left, "inputsArea"))
         columns.addWidget(_scroll(self.risk, "riskArea"))
         columns.addWidget(sections)
-        columns.setSizes([430, 400, 530])
+        columns.setSizes([450, 380, 530])
         columns.setChildrenCollapsible(False)
         return columns
 

@@ -17,7 +17,7 @@ from collections.abc import Callable
 from typing import Any
 
 from PySide6.QtCore import Signal
-from PySide6.QtWidgets import QFormLayout, QLineEdit, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QGridLayout, QLabel, QLineEdit, QVBoxLayout, QWidget
 
 from ..calc.document import Calculator
 from ..calc.numbers import parse_number
@@ -26,7 +26,7 @@ from ..clinic.session import ClinicSession
 from ..clinic.threshold import Threshold, format_percent
 from ..errors import CalcbuilderError
 from .figures import FigureBox
-from .look import SYMBOL, set_state, state_label
+from .look import SYMBOL, heading, set_state, state_label
 
 __all__ = ["ThresholdPanel", "parse_percent", "parse_ratio", "parse_willing"]
 
@@ -83,16 +83,24 @@ class ThresholdPanel(QWidget):
         self.set_threshold(session.threshold)
 
     def _lay_out(self) -> None:
-        form = QFormLayout()
-        form.addRow("Threshold (% risk)", self.percent)
-        form.addRow("Intervene for N to reach 1", self.willing)
-        form.addRow("Harm : benefit", self.ratio)
+        entries = QGridLayout()
+        captions = ("Threshold, % risk", "or: intervene for N to reach 1", "or: harm : benefit")
+        for column, (caption, entry) in enumerate(
+                zip(captions, (self.percent, self.willing, self.ratio), strict=True)):
+            label = QLabel(caption)
+            label.setBuddy(entry)
+            entries.addWidget(label, 0, column)
+            entries.addWidget(entry, 1, column)
+        entries.setColumnStretch(3, 1)
         box = QVBoxLayout(self)
-        box.addLayout(form)
-        for label in (self.entry_message, self.meaning, self.range_note, self.versus,
-                      self.benefit, self.source, self.warnings):
-            box.addWidget(label)
-        box.addWidget(self.curve, 1)
+        box.addWidget(heading("The threshold: three ways to say it"))
+        box.addLayout(entries)
+        for widget in (self.entry_message, self.meaning, self.range_note,
+                       heading("This patient and the threshold"), self.versus,
+                       heading("Deciding by the model at this threshold"), self.warnings,
+                       self.benefit, self.source, self.curve):
+            box.addWidget(widget)
+        box.addStretch(1)
 
     def _connect(self) -> None:
         readers: tuple[tuple[QLineEdit, Callable[[str], Threshold]], ...] = (
@@ -215,7 +223,7 @@ def _entry(name: str, accessible: str) -> QLineEdit:
     entry = QLineEdit()
     entry.setObjectName(name)
     entry.setAccessibleName(accessible)
-    entry.setMaximumWidth(140)
+    entry.setMaximumWidth(130)
     return entry
 
 

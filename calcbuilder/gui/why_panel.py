@@ -56,6 +56,7 @@ class WhyPanel(QWidget):
         self.table.setHorizontalHeaderLabels(_HEADINGS)
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         self.table.verticalHeader().hide()
+        self.table.setWordWrap(True)
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
         for col in range(1, len(_HEADINGS)):
@@ -79,8 +80,9 @@ class WhyPanel(QWidget):
     def _intro(self) -> str:
         model = self._session.calculator.model
         if model.family == "logistic":
-            start = (f"The model starts from {model.intercept:.2f} on the log-odds scale; "
-                     "each value below adds to it or takes away.")
+            intercept = f"{model.intercept or 0.0:.2f}".replace("-", "−")
+            start = (f"The model starts from {intercept} on the log-odds scale; each value "
+                     "below adds to it or takes away.")
         else:
             start = ("Each value below moves the estimate away from that of a patient with "
                      "the average values of the development data (log hazard scale).")
@@ -101,6 +103,7 @@ class WhyPanel(QWidget):
                 "-", "−"), direction_text(item.value))
             for j, text in enumerate(cells):
                 self.table.setItem(i, j, QTableWidgetItem(text))
+        self.table.resizeRowsToContents()
         self.table.setFixedHeight(self.table.horizontalHeader().height()
                                   + sum(self.table.rowHeight(i) for i in range(len(rows))) + 4)
         if not rows:
