@@ -57,10 +57,13 @@ def anes_values(data):
             "educ": np.array([str(int(v)) for v in data["educ"]], dtype=object)}
 
 
+def _document(text, desc, source=SRC):
+    return table_document(parse_coefficient_table(text, source), desc, source)
+
+
 def _refusal(text, desc, source=SRC):
     with pytest.raises(ModelImportError) as info:
-        rows = parse_coefficient_table(text, source)
-        table_document(rows, desc, source)
+        _document(text, desc, source)
     return info.value
 
 

@@ -51,8 +51,10 @@ def _constant(node: ast.expr) -> float | None:
     if isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.USub | ast.UAdd):
         inner = _constant(node.operand)
         return None if inner is None else (-inner if isinstance(node.op, ast.USub) else inner)
-    if isinstance(node, ast.Constant) and type(node.value) in (int, float):
-        return float(node.value)
+    if isinstance(node, ast.Constant):
+        value = node.value
+        if isinstance(value, int | float) and not isinstance(value, bool):
+            return float(value)
     return None
 
 
@@ -70,28 +72,40 @@ def _shifted(node: ast.expr) -> tuple[str, float] | None:
     return None
 
 
+def _expression(code: str) -> ast.expr | None:
+    try:
+        return ast.parse(code.strip(), mode="eval").body
+    except SyntaxError:
+        return None
+
+
+def _call_form(node: ast.Call) -> tuple[str, dict[str, Any]] | None:
+    """``np.log(x [+- c])``, ``np.log1p(x)``, ``np.sqrt(x)`` or ``I(x ** k)``, else None."""
+    fn, arg = _call_name(node.func), node.args[0]
+    base = fn.rsplit(".", 1)[-1] if fn.startswith(("np.", "numpy.")) else ""
+    shifted = _shifted(arg)
+    if base == "log" and shifted is not None:
+        return shifted[0], {"type": "log", "shift": shifted[1]}
+    if base in ("log1p", "sqrt") and isinstance(arg, ast.Name):
+        return arg.id, {"type": "log", "shift": 1.0} if base == "log1p" else {"type": "sqrt"}
+    if fn == "I" and isinstance(arg, ast.BinOp) and isinstance(arg.op, ast.Pow):
+        k = _constant(arg.right)
+        if isinstance(arg.left, ast.Name) and k is not None and k != 0:
+            return arg.left.id, ({"type": "linear"} if k == 1
+                                 else {"type": "power", "exponent": k})
+    return None
+
+
 def parse_numeric(code: str) -> tuple[str, dict[str, Any]] | str:
     """The column and transform of a numeric factor's code, or why it cannot be represented."""
-    try:
-        node = ast.parse(code.strip(), mode="eval").body
-    except SyntaxError:
-        return f"{code!r} cannot be read"
+    node = _expression(code)
     if isinstance(node, ast.Name):
         return node.id, {"type": "linear"}
+    form = None
     if isinstance(node, ast.Call) and len(node.args) == 1 and not node.keywords:
-        fn, arg = _call_name(node.func), node.args[0]
-        base = fn.rsplit(".", 1)[-1] if fn.startswith(("np.", "numpy.")) else ""
-        shifted = _shifted(arg)
-        if base == "log" and shifted is not None:
-            return shifted[0], {"type": "log", "shift": shifted[1]}
-        if base in ("log1p", "sqrt") and isinstance(arg, ast.Name):
-            return arg.id, ({"type": "log", "shift": 1.0} if base == "log1p"
-                            else {"type": "sqrt"})
-        if fn == "I" and isinstance(arg, ast.BinOp) and isinstance(arg.op, ast.Pow):
-            k = _constant(arg.right)
-            if isinstance(arg.left, ast.Name) and k is not None and k != 0:
-                return arg.left.id, ({"type": "linear"} if k == 1
-                                     else {"type": "power", "exponent": k})
+        form = _call_form(node)
+    if form is not None:
+        return form
     if isinstance(node, ast.Call) and _call_name(node.func) in SPLINE_FUNCTIONS:
         return _SPLINE_TEXT
     return f"{code!r} is not one of the forms calcbuilder can represent: {_FORMS}"
@@ -106,7 +120,7 @@ def category_text(value: Any) -> str:
 
 
 def _categorical_column(code: str) -> str | None:
-    node = ast.parse(code.strip(), mode="eval").body
+    node = _expression(code)
     if isinstance(node, ast.Name):
         return node.id
     if (isinstance(node, ast.Call) and _call_name(node.func) == "C" and node.args
@@ -129,7 +143,7 @@ def _treatment(matrix: Any, categories: tuple[Any, ...]) -> tuple[Any, list[Any]
     return categories[zero_rows[0]], levels
 
 
-def _input(column: str, term: str, desc: InputsDescription) -> InputSpec | str:
+def _input(column: str, desc: InputsDescription) -> InputSpec | str:
     spec = desc.input_named(column)
     if spec is None:
         return (f"column {column!r} is not an input of {desc.source}: add an [[inputs]] "
@@ -137,12 +151,12 @@ def _input(column: str, term: str, desc: InputsDescription) -> InputSpec | str:
     return spec
 
 
-def numeric_factor(factor: Any, term: str, desc: InputsDescription) -> Factor | str:
+def numeric_factor(factor: Any, desc: InputsDescription) -> Factor | str:
     parsed = parse_numeric(factor.code)
     if isinstance(parsed, str):
         return parsed
     column, transform = parsed
-    spec = _input(column, term, desc)
+    spec = _input(column, desc)
     if isinstance(spec, str):
         return spec
     if spec.kind == "yes_no" and transform["type"] == "linear":
@@ -161,23 +175,30 @@ def categorical_factor(factor: Any, info: Any, contrast: Any,
     if coded is None:
         return (f"{factor.code!r} is not coded with a treatment contrast against one reference "
                 "level (full-rank or other contrasts cannot be represented)")
-    reference, levels = coded
-    spec = _input(column, factor.code, desc)
+    spec = _input(column, desc)
     if isinstance(spec, str):
         return spec
+    transform = _category_transform(factor.code, spec, tuple(info.categories), *coded)
+    if isinstance(transform, str):
+        return transform
     pieces = tuple(factor.name() + suffix for suffix in contrast.column_suffixes)
+    return Factor(factor.name(), spec.id, transform, pieces, column)
+
+
+def _category_transform(code: str, spec: InputSpec, categories: tuple[Any, ...],
+                        reference: Any, levels: list[Any]) -> dict[str, Any] | str:
+    """``indicator`` (bool column, yes/no input) or ``levels`` (choice input), else why not."""
     if spec.kind == "yes_no":
         if (reference, levels) != (False, [True]):
             return (f"yes/no input {spec.id!r} needs a bool column coded True against the "
                     f"reference False (got reference {reference!r})")
-        return Factor(factor.name(), spec.id, {"type": "indicator"}, pieces, column)
-    if spec.kind != "choice" or any(isinstance(c, bool) for c in info.categories):
-        return f"input {spec.id!r} is {spec.kind}; categories of {factor.code!r} need a choice"
-    texts = [category_text(c) for c in info.categories]
+        return {"type": "indicator"}
+    if spec.kind != "choice" or any(isinstance(c, bool) for c in categories):
+        return f"input {spec.id!r} is {spec.kind}; categories of {code!r} need a choice"
+    texts = [category_text(c) for c in categories]
     choices = [c.value for c in spec.choices]
     if sorted(texts) != sorted(choices):
-        return (f"the categories of {factor.code!r} ({', '.join(texts)}) differ from the "
+        return (f"the categories of {code!r} ({', '.join(texts)}) differ from the "
                 f"choices of input {spec.id!r} ({', '.join(choices)})")
-    transform = {"type": "levels", "reference": category_text(reference),
-                 "levels": [category_text(v) for v in levels]}
-    return Factor(factor.name(), spec.id, transform, pieces, column)
+    return {"type": "levels", "reference": category_text(reference),
+            "levels": [category_text(v) for v in levels]}

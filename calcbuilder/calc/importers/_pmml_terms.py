@@ -237,7 +237,8 @@ def _product(key: tuple[tuple[str, str], tuple[str, str]], slot: Mapping[int, So
              singles: Mapping[tuple[str, str], _Term | None],
              problems: Problems) -> PlannedTerm | None:
     a, b = singles[key[0]], singles[key[1]]
-    assert a is not None and b is not None  # only pairs of built terms get a slot
+    assert a is not None  # only pairs of built terms get a slot
+    assert b is not None
     ta, tb = a.planned, b.planned
     size = len(ta.columns) * len(tb.columns)
     missing = [p for p in range(size) if p not in slot]

@@ -74,6 +74,8 @@ def _check_result(result: Any) -> Any:
     from statsmodels.genmod.generalized_linear_model import GLM
 
     model = getattr(result, "model", None)
+    if model is None:
+        raise ModelImportError(f"{type(result).__name__} is not a fitted statsmodels result")
     if isinstance(model, GLM):
         # exact type: statsmodels' Probit, Cauchy and other CDF links subclass Logit
         if not isinstance(model.family, Binomial) or type(model.family.link) is not LogitLink:
@@ -109,7 +111,7 @@ def _factor(factor: Any, design: Any, contrasts: Any, desc: InputsDescription) -
         return f"factor {factor!r} is not a formula expression"
     if info.type == "categorical":
         return categorical_factor(factor, info, contrasts[factor], desc)
-    parsed = numeric_factor(factor, factor.code, desc)
+    parsed = numeric_factor(factor, desc)
     if not isinstance(parsed, str) and info.num_columns != 1:
         return f"{factor.code!r} makes {info.num_columns} columns"
     return parsed
@@ -145,7 +147,8 @@ def _plan_terms(result: Any, design: Any, desc: InputsDescription,
             cols = [Column(params[position[p]], position[p]) for p in facs[0].pieces]
             terms.append(PlannedTerm(facs[0].name, facs[0].input, facs[0].transform, cols))
         else:
-            product = _product(sub, facs, main, position, params, where, problems)
+            product = _product(sub, facs, main, where=where, problems=problems,
+                               columns=(position, params))
             if product is not None:
                 terms.append(product)
     if intercept is None:
@@ -154,9 +157,10 @@ def _plan_terms(result: Any, design: Any, desc: InputsDescription,
     return intercept, terms
 
 
-def _product(sub: Any, facs: list[Factor], main: dict[Any, tuple[Factor, Any]],
-             position: dict[str, int], params: list[float], where: str,
-             problems: Problems) -> PlannedTerm | None:
+def _product(sub: Any, facs: list[Factor], main: dict[Any, tuple[Factor, Any]], *,
+             where: str, problems: Problems,
+             columns: tuple[dict[str, int], list[float]]) -> PlannedTerm | None:
+    position, params = columns
     for factor, fac in zip(sub.factors, facs, strict=True):
         own = main.get(factor)
         same = own is not None and own[0].pieces == fac.pieces

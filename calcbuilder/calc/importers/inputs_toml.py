@@ -75,7 +75,7 @@ class TermEntry:
 
     name: str
     input: str | None
-    transform: Mapping[str, Any]
+    transform: dict[str, Any]
     truncate: Mapping[str, Any] | None
     path: str
 

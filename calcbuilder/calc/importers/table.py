@@ -39,6 +39,7 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from ..document import Calculator
 from ..inputs import InputSpec
@@ -206,7 +207,7 @@ def _default_entry(stem: str, desc: InputsDescription) -> TermEntry | None:
     spec = desc.input_named(stem)
     if spec is None:
         return None
-    transform: dict[str, object] = {
+    transform: dict[str, Any] = {
         "number": {"type": "linear"}, "yes_no": {"type": "indicator"},
         "choice": {"type": "levels"},
     }[spec.kind]
