@@ -7,11 +7,10 @@ Imported only when a sheet is built (reportlab).
 
 from __future__ import annotations
 
-from reportlab.graphics.shapes import Circle, Drawing, Rect
 from reportlab.lib import colors
 from reportlab.platypus import Flowable
 
-__all__ = ["AFFECTED", "UNAFFECTED_EDGE", "NoteLines", "icon_array"]
+__all__ = ["AFFECTED", "UNAFFECTED_EDGE", "IconArray", "NoteLines", "icon_array"]
 
 AFFECTED = colors.Color(0.18, 0.18, 0.22)
 UNAFFECTED_EDGE = colors.Color(0.45, 0.45, 0.45)
@@ -19,23 +18,12 @@ _PITCH = 1.3  # row height in icon widths
 _GAP = 0.5  # extra gap between 10 x 10 blocks, in icon widths
 
 
-def _person(x: float, y: float, w: float, filled: bool) -> list[Circle | Rect]:
-    """One person: a head and a rounded body, ``(x, y)`` the bottom-left of the cell."""
-    fill = AFFECTED if filled else colors.white
-    edge = AFFECTED if filled else UNAFFECTED_EDGE
-    stroke = 0.4 if w >= 8 else 0.25
-    body = Rect(x + 0.2 * w, y, 0.6 * w, 0.66 * w, rx=0.22 * w, ry=0.22 * w,
-                fillColor=fill, strokeColor=edge, strokeWidth=stroke)
-    head = Circle(x + 0.5 * w, y + 0.93 * w, 0.19 * w, fillColor=fill, strokeColor=edge,
-                  strokeWidth=stroke)
-    return [body, head]
-
-
-def icon_array(n_affected: int, total: int, width: float) -> Drawing:
+class IconArray(Flowable):
     """``total`` people (100 or 1,000) of which the first ``n_affected`` are filled.
 
     People are filled from the top left, row by row, in blocks of 10 x 10 so
-    they can be counted; 1,000 people are 5 blocks across and 2 down.
+    they can be counted; 1,000 people are 5 blocks across and 2 down. Drawn
+    straight on the canvas (a head and a rounded body per person).
 
     Parameters
     ----------
@@ -44,24 +32,43 @@ def icon_array(n_affected: int, total: int, width: float) -> Drawing:
     total : int
         100 or 1000.
     width : float
-        Width of the drawing in points; the height follows.
+        Width in points; the height follows.
     """
-    blocks_across = 1 if total <= 100 else 5
-    cols = 10 * blocks_across
-    rows = total // cols
-    w = width / (cols + (blocks_across - 1) * _GAP)
-    block_rows = rows // 10
-    height = w * (rows * _PITCH + (block_rows - 1) * _GAP)
-    drawing = Drawing(width, height)
-    for i in range(total):
+
+    def __init__(self, n_affected: int, total: int, width: float) -> None:
+        super().__init__()
+        self.n_affected, self.total = n_affected, total
+        self.across = 1 if total <= 100 else 5
+        cols = 10 * self.across
+        self.w = width / (cols + (self.across - 1) * _GAP)
+        block_rows = total // cols // 10
+        self.width = width
+        self.height = self.w * (total // cols * _PITCH + (block_rows - 1) * _GAP)
+
+    def _origin(self, i: int) -> tuple[float, float]:
         block, k = divmod(i, 100)
-        b_row, b_col = divmod(block, blocks_across)
+        b_row, b_col = divmod(block, self.across)
         r, c = divmod(k, 10)
-        x = (b_col * (10 + _GAP) + c) * w
-        top = (b_row * (10 * _PITCH + _GAP) + r * _PITCH) * w
-        for shape in _person(x, height - top - _PITCH * w + 0.05 * w, w, i < n_affected):
-            drawing.add(shape)
-    return drawing
+        top = (b_row * (10 * _PITCH + _GAP) + r * _PITCH) * self.w
+        return (b_col * (10 + _GAP) + c) * self.w, self.height - top - (_PITCH - 0.05) * self.w
+
+    def draw(self) -> None:
+        canvas, w = self.canv, self.w
+        canvas.saveState()
+        canvas.setLineWidth(0.4 if w >= 8 else 0.25)
+        for i in range(self.total):
+            filled = i < self.n_affected
+            canvas.setFillColor(AFFECTED if filled else colors.white)
+            canvas.setStrokeColor(AFFECTED if filled else UNAFFECTED_EDGE)
+            x, y = self._origin(i)
+            canvas.roundRect(x + 0.2 * w, y, 0.6 * w, 0.66 * w, 0.22 * w, stroke=1, fill=1)
+            canvas.circle(x + 0.5 * w, y + 0.93 * w, 0.19 * w, stroke=1, fill=1)
+        canvas.restoreState()
+
+
+def icon_array(n_affected: int, total: int, width: float) -> IconArray:
+    """The icon array flowable (see :class:`IconArray`)."""
+    return IconArray(n_affected, total, width)
 
 
 class NoteLines(Flowable):

@@ -47,14 +47,14 @@ def _calibration_words(evidence: EvidenceSet) -> str | None:
                    "estimates were on average too high in these data"
                    if high is not None and high < 0 else "no clear overall over- or "
                    "under-estimation")
-        parts.append(f"calibration intercept {_with_ci(intercept)}, ideal 0: {meaning}")
+        parts.append(f"intercept {_with_ci(intercept)}, ideal 0: {meaning}")
     if slope and slope.get("value") is not None:
         low, high = slope.get("low"), slope.get("high")
         meaning = ("estimates too extreme (high ones too high, low ones too low)"
                    if high is not None and high < 1 else
                    "estimates too modest (spread too little)"
                    if low is not None and low > 1 else "spread of the estimates about right")
-        parts.append(f"calibration slope {_with_ci(slope)}, ideal 1: {meaning}")
+        parts.append(f"slope {_with_ci(slope)}, ideal 1: {meaning}")
     return "; ".join(parts) + "." if parts else None
 
 

@@ -37,7 +37,6 @@ from reportlab.platypus import (
     Paragraph,
     Spacer,
     Table,
-    TableStyle,
 )
 from reportlab.platypus.doctemplate import LayoutError
 
@@ -48,7 +47,7 @@ from ..clinic.session import ClinicSession, PatientResult
 from ..clinic.threshold import Threshold, format_percent
 from ..errors import CalcbuilderError, InputValueError
 from ._flowables import NoteLines, icon_array
-from ._sheet_style import BAND, GREY, INK, LAYOUTS, Layout, Styles, boxed, esc
+from ._sheet_style import BAND, GREY, INK, LAYOUTS, Layout, Styles, boxed, esc, table_style
 from ._sheet_text import provenance_lines, signature_lines
 from .fonts import FONT
 
@@ -56,7 +55,6 @@ __all__ = ["PAGE_SIZES", "SheetInfo", "make_sheet", "sheet_bytes"]
 
 PAGE_SIZES = {"A4": A4, "Letter": LETTER}
 Page = Literal["A4", "Letter"]
-MARGIN = 14 * mm
 OUR_CAUTION = ("This sheet supports a conversation between the patient and the clinician. It "
                "does not replace clinical judgement, the patient's own values or local "
                "protocols, and it does not say what anyone should do.")
@@ -112,7 +110,7 @@ class _Sheet:
                           f"{self.printed_at:%Y-%m-%d %H:%M}", self.s.small)]
         right = [Paragraph(f"Patient reference: <b>{ref}</b>", self.s.body)]
         table = Table([[left, right]], colWidths=[self.width * 0.64, self.width * 0.36])
-        table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+        table.setStyle(table_style([("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("LEFTPADDING", (0, 0), (-1, -1), 0),
                                    ("RIGHTPADDING", (0, 0), (-1, -1), 0),
                                    ("LINEBELOW", (0, 0), (-1, -1), 0.8, INK)]))
@@ -164,11 +162,11 @@ class _Sheet:
         else:
             icons = icon_array(n, total, left_w * 0.75)
             inner = Table([[self.estimate_text()], [icons]], colWidths=[left_w])
-        inner.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+        inner.setStyle(table_style([("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("LEFTPADDING", (0, 0), (-1, -1), 0)]))
         table = Table([[[Paragraph("This patient's estimate", self.s.h2), inner],
                         self.caution_box(box_w)]], colWidths=[left_w + 6, box_w])
-        table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+        table.setStyle(table_style([("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("LEFTPADDING", (0, 0), (-1, -1), 0),
                                    ("RIGHTPADDING", (0, 0), (-1, -1), 0),
                                    ("TOPPADDING", (1, 0), (1, 0), 8)]))
@@ -195,8 +193,8 @@ class _Sheet:
             row += [t] + ([""] if i < columns - 1 else [])
         widths = [w for i in range(columns) for w in ([col_w, gap] if i < columns - 1
                                                        else [col_w])]
-        outer = Table([row], colWidths=widths)
-        outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+        outer = Table([row], colWidths=widths, hAlign="LEFT")
+        outer.setStyle(table_style([("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("LEFTPADDING", (0, 0), (-1, -1), 0),
                                    ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
         out: list[Flowable] = [Paragraph("Values used", self.s.h2), outer]
@@ -211,7 +209,7 @@ class _Sheet:
                  Paragraph(("<b>▲</b> " if line.extrapolated else "") + esc(line.text), st)]
                 for line in lines]
         table = Table(rows or [["", ""]], colWidths=[width * 0.55, width * 0.45])
-        table.setStyle(TableStyle([("LINEBELOW", (0, 0), (-1, -1), 0.3, GREY),
+        table.setStyle(table_style([("LINEBELOW", (0, 0), (-1, -1), 0.3, GREY),
                                    ("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("TOPPADDING", (0, 0), (-1, -1), 1),
                                    ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
@@ -235,7 +233,7 @@ class _Sheet:
                 [Paragraph(f"<b>{esc(value)}</b>", st.body) for _, value, _ in cells],
                 [Paragraph(esc(words), st.grey) for _, _, words in cells]]
         forms = Table(rows, colWidths=[self.width / 3] * 3)
-        forms.setStyle(TableStyle([("BOX", (0, 0), (-1, -1), 0.5, GREY),
+        forms.setStyle(table_style([("BOX", (0, 0), (-1, -1), 0.5, GREY),
                                    ("LINEBEFORE", (1, 0), (-1, -1), 0.5, GREY),
                                    ("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("TOPPADDING", (0, 0), (-1, -1), 0.5),
@@ -268,14 +266,14 @@ class _Sheet:
                            or label == "Signing key" else self.s.small)]
                 for label, text in signature_lines(self.session.loaded)]
         table = Table(rows, colWidths=[70, self.width - 70])
-        table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+        table.setStyle(table_style([("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("LEFTPADDING", (0, 0), (-1, -1), 0),
                                    ("TOPPADDING", (0, 0), (-1, -1), 0.5),
                                    ("BOTTOMPADDING", (0, 0), (-1, -1), 0.5)]))
         return [Paragraph("The calculator file", self.s.h2), KeepTogether(table)]
 
 
-def _footer(session: ClinicSession, printed_at: dt.datetime) -> Any:
+def _footer(session: ClinicSession, printed_at: dt.datetime, margin: float) -> Any:
     def draw(canvas: Any, doc: Any) -> None:
         canvas.saveState()
         canvas.setFont(FONT, 6.5)
@@ -283,8 +281,8 @@ def _footer(session: ClinicSession, printed_at: dt.datetime) -> Any:
         left = f"calcbuilder {__version__} · printed {printed_at:%Y-%m-%d %H:%M}"
         if session.synthetic:
             left = "SYNTHETIC — NOT FOR CLINICAL USE · " + left
-        canvas.drawString(MARGIN, MARGIN * 0.5, left)
-        canvas.drawRightString(doc.pagesize[0] - MARGIN, MARGIN * 0.5,
+        canvas.drawString(margin, margin * 0.45, left)
+        canvas.drawRightString(doc.pagesize[0] - margin, margin * 0.45,
                                "calcbuilder keeps no copy of this sheet or of the values on it.")
         canvas.restoreState()
     return draw
@@ -294,15 +292,17 @@ def _build(session: ClinicSession, threshold: Threshold, page: Page, lay: Layout
            printed_at: dt.datetime) -> tuple[bytes, int]:
     """The PDF for one layout and its page count (0 when platypus cannot place a piece)."""
     size = PAGE_SIZES[page]
+    margin = lay.margin_mm * mm
     buffer = io.BytesIO()
-    doc = BaseDocTemplate(buffer, pagesize=size, leftMargin=MARGIN, rightMargin=MARGIN,
-                          topMargin=MARGIN, bottomMargin=MARGIN,
+    doc = BaseDocTemplate(buffer, pagesize=size, leftMargin=margin, rightMargin=margin,
+                          topMargin=margin, bottomMargin=margin,
                           title=f"Risk sheet: {session.calculator.about.title}",
                           author="calcbuilder", creator=f"calcbuilder {__version__}",
-                          subject="Risk sheet")
-    frame = Frame(MARGIN, MARGIN, size[0] - 2 * MARGIN, size[1] - 2 * MARGIN, id="page",
+                          subject="Risk sheet", initialFontName=FONT, initialFontSize=9)
+    frame = Frame(margin, margin, size[0] - 2 * margin, size[1] - 2 * margin, id="page",
                   leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
-    doc.addPageTemplates([PageTemplate("sheet", [frame], onPage=_footer(session, printed_at))])
+    footer = _footer(session, printed_at, margin)
+    doc.addPageTemplates([PageTemplate("sheet", [frame], onPage=footer)])
     story = _Sheet(session, threshold, lay, frame._width, printed_at).story()
     try:
         doc.build(story)
