@@ -16,17 +16,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ._batch_core import (
-    BoolArray,
-    Design,
-    IntArray,
-    auc_rows,
-    brier_rows,
-    chunk_rows,
-    fit_chunk,
-    fit_rows_per_chunk,
-    slope_rows,
-)
+from ._batch_core import BoolArray, Design, IntArray, chunk_rows, fit_chunk, fit_rows_per_chunk
+from ._batch_measures import auc_rows, brier_rows, slope_rows
 from ._validate import FloatArray, ProgressCallback, as_risk, report_progress
 from .batch import design_matrix
 from .errors import StatsInputError

@@ -7,7 +7,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._batch_core import IntArray, auc_rows
+from ._batch_core import IntArray
+from ._batch_measures import auc_rows
 from ._resample_engine import FastEngine, Metric, Progress, SlowEngine, bootstrap_counts
 from ._validate import FloatArray
 from .errors import StatsInputError

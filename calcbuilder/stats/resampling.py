@@ -22,7 +22,10 @@ call, in resample order, turned into counts by ``numpy.bincount``.
 Failed resamples (the fit failed, or a measure is undefined on it) are left out
 of the averages, counted in ``n_failed`` and listed in ``failures`` with the
 reason; per measure, ``n_used`` / ``folds_used`` says how many values were
-averaged. BLAS is held to one thread while resampling.
+averaged. Failed resamples are often the most overfitted ones (e.g. separation),
+so leaving them out can understate optimism: show ``n_failed`` with the
+estimates. If every resample fails, :class:`StatsInputError` is raised. BLAS is
+held to one thread while resampling.
 
 References
 ----------
@@ -181,7 +184,7 @@ def bootstrap_optimism(
     seed: int | np.random.Generator | None = None,
     progress: ProgressCallback | None = None,
 ) -> BootstrapValidation:
-    """Harrell's bootstrap optimism correction of apparent performance [1]_ [2]_ [4]_.
+    """Harrell's bootstrap optimism correction of apparent performance [1]_ [2]_ [3]_.
 
     Parameters
     ----------
@@ -214,6 +217,18 @@ def bootstrap_optimism(
     Optimism is signed as in methods.md 6.1: it is negative for the Brier score
     (lower is better), so the corrected Brier is larger than the apparent one.
     The corrected calibration slope estimates the uniform shrinkage factor.
+    Steps (methods.md 6.1): fit on the original data, apparent performance; per
+    resample, refit the whole procedure, score it on the resample and on the
+    original data; optimism = mean difference; corrected = apparent - optimism.
+
+    References
+    ----------
+    .. [1] Harrell FE Jr, Lee KL, Mark DB. Multivariable prognostic models. Stat Med
+           1996;15:361-387.
+    .. [2] Efron B, Gong G. A leisurely look at the bootstrap, the jackknife, and
+           cross-validation. Am Stat 1983;37:36-48.
+    .. [3] Steyerberg EW, Harrell FE Jr, Borsboom GJ, et al. Internal validation of
+           predictive models. J Clin Epidemiol 2001;54:774-781.
 
     Examples
     --------
@@ -246,7 +261,7 @@ def efron_632plus(
     seed: int | np.random.Generator | None = None,
     progress: ProgressCallback | None = None,
 ) -> Efron632Validation:
-    """Efron's .632 and .632+ bootstrap estimates of the Brier score and the AUC [3]_.
+    """Efron's .632 and .632+ bootstrap estimates of the Brier score and the AUC [1]_ [2]_.
 
     Parameters are those of :func:`bootstrap_optimism`; ``metrics`` may name
     ``"brier"`` and ``"auc"`` only.
@@ -305,7 +320,7 @@ def cross_validate(
     seed: int | np.random.Generator | None = None,
     progress: ProgressCallback | None = None,
 ) -> CrossValidation:
-    """k-fold cross-validation, optionally stratified by outcome and repeated.
+    """k-fold cross-validation, optionally stratified by outcome and repeated [1]_.
 
     Parameters
     ----------
@@ -332,7 +347,13 @@ def cross_validate(
     Folds: within each repeat the rows (each class separately when stratified)
     are put in the order of ``rng.permutation`` and dealt to folds 0, 1, ...,
     k-1, 0, 1, ... in turn. The pooled AUC mixes the folds' different
-    calibrations; the fold mean is noisier for small folds.
+    calibrations; the fold mean is noisier for small folds. Each fold is fitted
+    with weights 1 on the training rows and 0 on the held-out rows.
+
+    References
+    ----------
+    .. [1] Steyerberg EW, Harrell FE Jr, Borsboom GJ, et al. Internal validation of
+           predictive models. J Clin Epidemiol 2001;54:774-781.
     """
     yv, engine = _setup(X, y, procedure)
     mets = resolve_metrics(metrics)

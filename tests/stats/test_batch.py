@@ -196,7 +196,7 @@ def test_calibration_slope_batch_equals_statsmodels_and_scalar(anes):
         ref = sm.GLM(y, sm.add_constant(lp), family=sm.families.Binomial(), freq_weights=W[b])
         assert abs(got[b] - ref.fit(tol=1e-13).params[1]) < FIT_TOL
         # calcbuilder scalar calibration_slope: another converged Newton fit of the same model
-        assert abs(got[b] - calibration_slope(y, R[b], weights=W[b]).value) < 1e-10
+        assert abs(got[b] - calibration_slope(y, R[b], weights=W[b]).value) < EXACT
 
 
 def test_apparent_calibration_slope_is_one(anes):
@@ -273,3 +273,12 @@ def test_calibration_slope_batch_raises_for_a_row_without_a_slope():
     risk = np.array([0.1, 0.2, 0.8, 0.9])  # separates y: the slope is infinite
     with pytest.raises(ConvergenceError, match=r"row 0 of 1 has no calibration slope"):
         calibration_slope_batch(y, risk)
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    from calcbuilder.stats import batch, resampling
+
+    for module in (batch, resampling):
+        assert doctest.testmod(module, raise_on_error=False).failed == 0, module.__name__
