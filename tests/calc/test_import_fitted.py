@@ -267,6 +267,13 @@ def test_other_families_links_and_offsets():
                                                   "formula")
 
 
+def test_yes_no_input_on_a_column_with_other_values():
+    desc = describe([yes_no("self_lr", "selfLR"), number("age", low=0, high=200)])
+    exc = _refused(_anes_fit("vote ~ age + selfLR"), desc)
+    assert exc.problems == ["term 'selfLR': yes/no input 'self_lr' reads column 'selfLR', which "
+                            "holds 2.0, 3.0, 4.0 besides 0 and 1"]
+
+
 def test_a_fit_that_did_not_converge():
     result = _anes_fit("vote ~ age + selfLR")
     result.converged = False

@@ -196,6 +196,15 @@ def test_event_category_required_and_checked(desc, regression):
         "event; the first RegressionTable must hold the event's coefficients"]
 
 
+@pytest.mark.parametrize("value", ["1_0", "NaN", "INF", "0x1", "1e999", ""])
+def test_numbers_must_be_plain_decimals(value, desc, regression):
+    text = regression.replace('<NumericPredictor name="age" exponent="1" coefficient="',
+                              f'<NumericPredictor name="age" exponent="1" coefficient="{value}"'
+                              ' x="')
+    assert _problems(text, desc) == [f"NumericPredictor name='age': coefficient={value!r} is "
+                                     "not a finite number"]
+
+
 def test_missing_intercept(desc, regression):
     start = regression.index('<RegressionTable intercept="')
     end = regression.index('" targetCategory="1"')

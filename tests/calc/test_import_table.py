@@ -269,6 +269,23 @@ def test_unknown_keys_in_the_description_are_refused_with_their_path():
         "type, shift"]
 
 
+def test_too_few_test_vectors(desc):
+    raw = tomllib.loads((FIXTURES / "anes96.inputs.toml").read_text("utf-8"))
+    del raw["test_vectors"][2:]
+    exc = _refusal(GOOD, parse_description(raw, "i.toml"))
+    assert exc.problems == ["i.toml: needs at least 5 [[test_vectors]], each with the risk the "
+                            "original analysis software computed for its values (got 2); they "
+                            "prove the import reproduces the model"]
+
+
+def test_default_product_needs_one_column_terms(desc):
+    exc = _refusal(GOOD + "educ:age,0.1,\n", desc)
+    assert exc.problems == [
+        "coefs.csv row 15 (term 'educ:age'): term 'educ:age' is not explained: no [[terms]] "
+        f"entry of {desc.source} names it and no input has it as its column or id; a:b is a "
+        "product by default only when a and b are one-column terms of the table"]
+
+
 def test_mistyped_coefficient_is_caught_by_the_test_vectors(desc):
     text = GOOD.replace("\nage,-", "\nage,-1", 1)  # a digit slipped in
     rows = parse_coefficient_table(text, SRC)

@@ -55,6 +55,7 @@ class ModelColumns:
     intercept: Column
     columns: list[SourceColumn]
     covariance: list[list[float]] | None = None
+    complete: bool = True  # False when a column could not be read (its problem is recorded)
 
 
 def _event_missing(r: Reader, where: str, hint: str) -> None:
@@ -92,12 +93,12 @@ def regression_model(r: Reader, el: Element, event: str | None) -> ModelColumns 
                        f"category {event!r} given by [pmml] event; the first RegressionTable "
                        "must hold the event's coefficients")
     intercept = r.number(tables[0], "intercept", "RegressionTable[1]")
-    columns = [c for c in (_table_item(r, tag, item) for tag, item in
-                           r.children(tables[0], "RegressionTable[1]", _TABLE_ITEMS))
-               if c is not None]
+    read = [_table_item(r, tag, item) for tag, item in
+            r.children(tables[0], "RegressionTable[1]", _TABLE_ITEMS)]
+    columns = [c for c in read if c is not None]
     if intercept is None:
         return None
-    return ModelColumns(Column(intercept), columns)
+    return ModelColumns(Column(intercept), columns, complete=len(columns) == len(read))
 
 
 def _table_item(r: Reader, tag: str, item: Element) -> SourceColumn | None:

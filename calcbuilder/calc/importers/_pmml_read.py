@@ -19,6 +19,7 @@ Supported derived fields, the simplest that map onto calculator transforms:
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -32,6 +33,7 @@ __all__ = ["IGNORED", "Reader", "data_dictionary", "derived_fields", "mining_sch
 IGNORED = ("Extension", "Output", "ModelStats", "ModelExplanation", "ModelVerification")
 """Elements skipped wherever they appear: they describe a model but do not change its scores."""
 
+_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
 _USAGE = ("active", "predicted", "target", "supplementary", "frequencyWeight", "analysisWeight")
 
 
@@ -73,10 +75,7 @@ class Reader:
             if default is None:
                 self.problems.add(where, f"attribute {attr} is required")
             return default
-        try:
-            value = float(text.strip())
-        except ValueError:
-            value = math.nan
+        value = float(text) if _NUMBER.fullmatch(text.strip()) else math.nan
         if not math.isfinite(value):
             self.problems.add(where, f"{attr}={text!r} is not a finite number")
             return None
@@ -174,10 +173,8 @@ def _sum(r: Reader, apply: Element, at: str, fields: Mapping[str, FieldInfo]
         return None, None
     ref = next(el for tag, el in args if tag == "FieldRef")
     const = next(el for tag, el in args if tag == "Constant")
-    try:
-        c = float((const.text or "").strip())
-    except ValueError:
-        c = math.nan
+    text = (const.text or "").strip()
+    c = float(text) if _NUMBER.fullmatch(text) else math.nan
     if not math.isfinite(c) or const.get("missing") == "true":
         r.problems.add(at, f"Constant {const.text!r} is not a finite number")
         return None, None

@@ -179,6 +179,22 @@ def _product(sub: Any, facs: list[Factor], main: dict[Any, tuple[Factor, Any]], 
                        cols)
 
 
+def _check_yes_no(result: Any, terms: list[PlannedTerm], desc: InputsDescription,
+                  problems: Problems) -> None:
+    """A yes/no input read as a number must hold only 0 and 1 in the training data."""
+    frame = result.model.data.frame
+    for term in terms:
+        spec = desc.input_by_id(term.input) if term.input else None
+        column = desc.columns.get(term.input or "", term.input or "")
+        if spec is None or spec.kind != "yes_no" or column not in frame.columns:
+            continue
+        values = frame[column].dropna()
+        if not values.isin([0, 1]).all():
+            odd = sorted(set(values[~values.isin([0, 1])].tolist()), key=str)[:3]
+            problems.add(f"term {term.name!r}", f"yes/no input {spec.id!r} reads column "
+                         f"{column!r}, which holds {', '.join(map(repr, odd))} besides 0 and 1")
+
+
 def _vector_value(spec: InputSpec, value: Any) -> Any:
     if spec.kind == "number":
         return float(value)
@@ -232,6 +248,7 @@ def fitted_document(result: Any, desc: InputsDescription, *,
     design = _check_result(result)
     problems = Problems()
     intercept, terms = _plan_terms(result, design, desc, problems)
+    _check_yes_no(result, terms, desc, problems)
     raise_problems(problems, "the fitted model cannot be imported")
     assert intercept is not None  # recorded as a problem otherwise
     covariance = result.cov_params()

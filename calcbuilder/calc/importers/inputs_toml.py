@@ -51,6 +51,7 @@ __all__ = [
 ]
 
 MAX_BYTES = 2 * 1024 * 1024
+MIN_VECTORS = 5
 TOP_KEYS = ("about", "inputs", "decision", "cautions", "test_vectors", "terms", "pmml")
 ABOUT_KEYS = ("title", "version", "intended_use", "population", "outcome", "horizon",
               "exclusions", "authors", "organisation", "contact", "released", "review_by",
@@ -93,6 +94,14 @@ class InputsDescription:
     test_vectors: tuple[Mapping[str, Any], ...]
     terms: tuple[TermEntry, ...] = ()
     pmml_event: str | None = None
+
+    def require_vectors(self, problems: Problems) -> None:
+        """Record a problem unless the description gives enough test vectors."""
+        if len(self.test_vectors) < MIN_VECTORS:
+            problems.add(self.source, f"needs at least {MIN_VECTORS} [[test_vectors]], each "
+                         "with the risk the original analysis software computed for its "
+                         f"values (got {len(self.test_vectors)}); they prove the import "
+                         "reproduces the model")
 
     def input_named(self, name: str) -> InputSpec | None:
         """The input whose ``column`` (or, without one, whose id) is ``name``."""

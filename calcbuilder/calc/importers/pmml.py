@@ -190,8 +190,9 @@ def pmml_document(root: Element, desc: InputsDescription, source: str) -> dict[s
         else:
             columns = general_regression(r, model, desc.pmml_event)
         _check_target(r, target, fields, desc.pmml_event)
+    desc.require_vectors(r.problems)
     terms = []
-    if columns is not None:
+    if columns is not None and columns.complete:  # else products would report missing terms
         kept = _check_fields(r, columns.columns, fields, active)
         terms = build_terms(kept, fields, desc, r.problems)
     raise_problems(r.problems, f"PMML file {source} cannot be imported")

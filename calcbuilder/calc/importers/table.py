@@ -303,9 +303,11 @@ def _plan(rows: list[CoefficientRow], desc: InputsDescription, source: str,
         group = groups[stem]
         entry = _entry_for(stem, desc, planned)
         if entry is None:
+            hint = ("; a:b is a product by default only when a and b are one-column terms "
+                    "of the table" if ":" in stem else "")
             problems.add(group[0].where(source), f"term {stem!r} is not explained: no "
                          f"[[terms]] entry of {desc.source} names it and no input has it "
-                         "as its column or id")
+                         f"as its column or id{hint}")
             continue
         spec = desc.input_by_id(entry.input) if entry.input is not None else None
         counts = {name: len(t.columns) for name, t in planned.items()}
@@ -345,6 +347,7 @@ def table_document(rows: list[CoefficientRow], desc: InputsDescription,
         problems.add(extra.where(source), f"a second intercept row (the first is row "
                      f"{intercepts[0].line})")
     terms = _plan([r for r in rows if r not in intercepts], desc, source, problems)
+    desc.require_vectors(problems)
     raise_problems(problems, f"coefficient table {source} cannot be imported")
     model = assemble_model(Column(intercepts[0].coefficient), terms)
     caution = NO_COVARIANCE_CAUTION.format(source="a coefficient table")
