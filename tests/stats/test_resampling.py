@@ -354,73 +354,35 @@ def test_blas_is_held_to_one_thread_while_resampling(anes):
 X4, Y4 = [[0.0], [1.0], [2.0], [3.0], [1.5], [0.5]], [0, 1, 0, 1, 1, 0]
 
 
-@pytest.mark.parametrize(
-    ("call", "message"),
-    [
-        (
-            lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), n_boot=0),
-            "n_boot must be an integer >= 1; got 0",
-        ),
-        (
-            lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), n_boot=True),
-            "n_boot must be an integer",
-        ),
-        (
-            lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), seed=-1),
-            "seed must be a non-negative int",
-        ),
-        (lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), seed="x"), "seed must be"),
-        (
-            lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), ["c-index"]),
-            "metrics must be names from",
-        ),
-        (lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), []), "at least one measure"),
-        (lambda: bootstrap_optimism(X4, Y4, PlainLogistic(), ["auc", "auc"]), "must not repeat"),
-        (
-            lambda: efron_632plus(X4, Y4, PlainLogistic(), ["calibration_slope"]),
-            "names from ['auc', 'brier']",
-        ),
-        (lambda: bootstrap_optimism(X4, Y4, 42), "procedure must be PlainLogistic() or a callable"),
-        (
-            lambda: bootstrap_optimism(X4[:5], Y4, _logistic_procedure),
-            "X must have the same number of rows as y (6); got 5",
-        ),
-        (
-            lambda: bootstrap_optimism(X4[:5], Y4, PlainLogistic()),
-            "X must have the same length as y",
-        ),
-        (lambda: bootstrap_optimism([["a"]] * 6, Y4, PlainLogistic()), "X must be a numeric"),
-        (
-            lambda: bootstrap_optimism(X4, [0, 1, 0, 1, 2, 0], PlainLogistic()),
-            "y must be coded 0/1",
-        ),
-        (lambda: bootstrap_optimism(X4, [0] * 6, PlainLogistic()), "both events and non-events"),
-        (
-            lambda: bootstrap_optimism(X4, Y4, lambda *_: 0.5),
-            "must return a predict(X) function",
-        ),
-        (
-            lambda: bootstrap_optimism(X4, Y4, lambda *_: lambda *_: [1.5] * 6),
-            "risk predicted by the procedure (original data) must lie in [0, 1]",
-        ),
-        (lambda: cross_validate(X4, Y4, PlainLogistic(), k=1), "k must be an integer >= 2"),
-        (
-            lambda: cross_validate(X4, Y4, PlainLogistic(), k=4),
-            "k must be at most the smaller outcome class (3)",
-        ),
-        (
-            lambda: cross_validate(X4, Y4, PlainLogistic(), k=7, stratify=False),
-            "k must be at most n",
-        ),
-        (
-            lambda: cross_validate(X4, Y4, PlainLogistic(), k=2, repeats=0),
-            "repeats must be an integer >= 1",
-        ),
-    ],
-)
-def test_bad_input_names_the_argument(call, message):
+BOOT, CV, E632, PL = bootstrap_optimism, cross_validate, efron_632plus, PlainLogistic()
+BAD_INPUT = [  # (function, positional arguments, keyword arguments, expected message)
+    (BOOT, (X4, Y4, PL), {"n_boot": 0}, "n_boot must be an integer >= 1; got 0"),
+    (BOOT, (X4, Y4, PL), {"n_boot": True}, "n_boot must be an integer"),
+    (BOOT, (X4, Y4, PL), {"seed": -1}, "seed must be a non-negative int"),
+    (BOOT, (X4, Y4, PL), {"seed": "x"}, "seed must be"),
+    (BOOT, (X4, Y4, PL, ["c-index"]), {}, "metrics must be names from"),
+    (BOOT, (X4, Y4, PL, []), {}, "at least one measure"),
+    (BOOT, (X4, Y4, PL, ["auc", "auc"]), {}, "must not repeat"),
+    (E632, (X4, Y4, PL, ["calibration_slope"]), {}, "names from ['auc', 'brier']"),
+    (BOOT, (X4, Y4, 42), {}, "procedure must be PlainLogistic() or a callable"),
+    (BOOT, (X4[:5], Y4, _logistic_procedure), {}, "X must have the same number of rows as y (6)"),
+    (BOOT, (X4[:5], Y4, PL), {}, "X must have the same length as y"),
+    (BOOT, ([["a"]] * 6, Y4, PL), {}, "X must be a numeric"),
+    (BOOT, (X4, [0, 1, 0, 1, 2, 0], PL), {}, "y must be coded 0/1"),
+    (BOOT, (X4, [0] * 6, PL), {}, "both events and non-events"),
+    (BOOT, (X4, Y4, lambda *_: 0.5), {}, "must return a predict(X) function"),
+    (BOOT, (X4, Y4, lambda *_: lambda *_: [1.5] * 6), {}, "(original data) must lie in [0, 1]"),
+    (CV, (X4, Y4, PL), {"k": 1}, "k must be an integer >= 2"),
+    (CV, (X4, Y4, PL), {"k": 4}, "k must be at most the smaller outcome class (3)"),
+    (CV, (X4, Y4, PL), {"k": 7, "stratify": False}, "k must be at most n"),
+    (CV, (X4, Y4, PL), {"k": 2, "repeats": 0}, "repeats must be an integer >= 1"),
+]
+
+
+@pytest.mark.parametrize(("func", "args", "kwargs", "message"), BAD_INPUT)
+def test_bad_input_names_the_argument(func, args, kwargs, message):
     with pytest.raises(StatsInputError) as info:
-        call()
+        func(*args, **kwargs)
     assert message in str(info.value)
 
 
