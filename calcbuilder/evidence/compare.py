@@ -181,10 +181,10 @@ def _miscalibration_warning(named: list[tuple[str, CalibrationSummary]]) -> str 
         f"{name}: slope {c.slope.value:.2f} (95% CI {c.slope.low:.2f} to {c.slope.high:.2f}), "
         f"intercept {c.intercept.value:.2f} (95% CI {c.intercept.low:.2f} to "
         f"{c.intercept.high:.2f})" for name, c in off)
-    return (f"{_LITERATURE}. On these data {' and '.join(n for n, _ in off)} "
-            f"{'is' if len(off) == 1 else 'are'} miscalibrated (rule: {MISCALIBRATION_RULE}): "
-            f"{described}. Read the NRI and IDI with caution; recalibrate first "
-            "(calcbuilder recalibrate) or judge by AUC, calibration and net benefit.")
+    return (f"{_LITERATURE}. On these data the calibration is off (rule: "
+            f"{MISCALIBRATION_RULE}) for {described}. Read the NRI and IDI with caution; "
+            "recalibrate first (calcbuilder recalibrate) or judge by AUC, calibration and "
+            "net benefit.")
 
 
 def compare_risks(y: ArrayLike, risk_new: ArrayLike, risk_ref: ArrayLike, *,

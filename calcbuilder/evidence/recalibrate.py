@@ -223,7 +223,11 @@ class CalibrationSummary:
 
 @dataclass(frozen=True)
 class RecalibrationResult:
-    """What :func:`recalibrate` did; ``calculator`` is validated and unsigned."""
+    """What :func:`recalibrate` did; ``calculator`` is validated and unsigned.
+
+    ``evidence_ids`` are the ids of the evidence sets added (``external`` first when
+    ``added_external``, then ``recalibrated``).
+    """
 
     calculator: Calculator
     fit: RecalibrationFit
@@ -233,6 +237,7 @@ class RecalibrationResult:
     after: CalibrationSummary
     added_external: bool
     was_signed: bool
+    evidence_ids: tuple[str, ...] = ()
 
 
 def _unique_id(kind: str, taken: set[str]) -> str:
@@ -369,4 +374,5 @@ def recalibrate(calc: Calculator, data: ScoredData, method: str, *, name: str,
         before=CalibrationSummary.of(data.y, data.risks[0]),
         after=CalibrationSummary.of(data.y, after),
         added_external=added, was_signed=calc.signature is not None,
+        evidence_ids=tuple(e["id"] for e in evidence),
     )

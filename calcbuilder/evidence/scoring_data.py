@@ -260,7 +260,8 @@ def _check(calc: Calculator, frame: pd.DataFrame) -> ColumnCheck:
 def _examples(checks: Sequence[ColumnCheck], rows: NDArray[np.intp]) -> tuple[str, ...]:
     out = []
     for row in rows[:MAX_REASONS].tolist():
-        text = " ".join(c.row_text(row) for c in checks if c.row_text(row)).strip()
+        texts = dict.fromkeys(c.row_text(row) for c in checks if c.row_text(row))
+        text = " ".join(texts).strip()
         out.append(f"row {file_row(row)}: {text}")
     return tuple(out)
 
