@@ -396,4 +396,4 @@ class ClinicSession:
                  else f"about {_half_up(pct)}%")
         name = self._cohort.raw["dataset"]["name"]
         return (f"In the development data ({name}), {share} of patients had a lower estimated "
-                f"risk than {format_percent(result.risk)}.")
+                f"risk than {format_percent(result.risk, decimal_comma=self._decimal_comma)}.")

@@ -167,3 +167,13 @@ def test_make_sheet_writes_atomically_and_refuses_bad_values(tmp_path):
 def test_unknown_page_size_is_refused(tmp_path):
     with pytest.raises(CalcbuilderError, match="A4 or Letter"):
         sheet_bytes(session_for(tmp_path), page="A5")  # type: ignore[arg-type]
+
+
+def test_calculator_without_covariance_says_there_is_no_interval(tmp_path):
+    session = session_for(tmp_path, covariance=False)
+    result = session.result()
+    assert result.low is None
+    assert result.high is None
+    text = text_of(sheet_bytes(session, printed_at=WHEN)[0])
+    assert f"Estimated risk: {format_percent(result.risk)} (no interval available)" in text
+    assert "No interval: the calculator file has no covariance matrix" in text
