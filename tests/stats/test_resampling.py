@@ -402,6 +402,7 @@ def test_procedure_predictions_invalid_on_a_resample_name_it():
 # --- memory bound at n = 200,000, p = 8 (the resamples are chunked) ----------------------
 
 
+@pytest.mark.slow
 def test_peak_memory_stays_bounded_at_large_n():
     import tracemalloc
 
