@@ -196,6 +196,19 @@ def test_fair_logit_with_log1p_and_powers():
                                rtol=0, atol=1e-12)
 
 
+def test_training_data_with_repeated_index_labels():
+    import pandas as pd
+    import statsmodels.api as sm
+    import statsmodels.formula.api as smf
+
+    data = sm.datasets.spector.load_pandas().data
+    twice = pd.concat([data, data])  # every index label appears twice
+    result = smf.logit("GRADE ~ GPA + PSI", data=twice).fit(disp=0)
+    desc = describe([number("gpa", "GPA", 0, 4), yes_no("psi", "PSI")])
+    names = [v.name for v in import_fitted(result, desc).test_vectors]
+    assert names == [f"training data row {i}" for i in (0, 9, 18, 27, 36, 45, 54, 63)]
+
+
 # -- refusals ---------------------------------------------------------------------------------
 
 def _anes_fit(formula, family=None, **kwargs):

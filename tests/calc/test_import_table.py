@@ -286,6 +286,16 @@ def test_default_product_needs_one_column_terms(desc):
         "product by default only when a and b are one-column terms of the table"]
 
 
+def test_unreadable_descriptions(tmp_path):
+    (tmp_path / "a.toml").write_text("[about]\ntitle = \n", "utf-8")
+    with pytest.raises(ModelImportError, match=r"^inputs description .*a.toml is not valid "
+                       r"TOML: Invalid value \(at line 2, column 9\)$"):
+        load_description(tmp_path / "a.toml")
+    (tmp_path / "b.toml").write_bytes(b"title = '\xe9'\n")
+    with pytest.raises(ModelImportError, match=r"is not UTF-8 text \(byte 9\); save it as UTF-8"):
+        load_description(tmp_path / "b.toml")
+
+
 def test_mistyped_coefficient_is_caught_by_the_test_vectors(desc):
     text = GOOD.replace("\nage,-", "\nage,-1", 1)  # a digit slipped in
     rows = parse_coefficient_table(text, SRC)

@@ -12,7 +12,6 @@ term is refused before anything is written.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -135,14 +134,6 @@ def assemble_model(
             raise ValueError("covariance given but a column has no source index")
         model["covariance"] = [[float(covariance[i][j]) for j in index] for i in index]  # type: ignore[index]
     return model
-
-
-def check_finite(value: float, where: str, problems: Problems) -> bool:
-    """Record a problem unless ``value`` is finite."""
-    if math.isfinite(value):
-        return True
-    problems.add(where, f"must be a finite number (got {value!r})")
-    return False
 
 
 def validate(document: dict[str, Any], source: str) -> Calculator:

@@ -28,8 +28,9 @@ an ``rcs`` transform (fitting recipe) or on columns of
 term. Categories become choice values as text (``2.0`` -> ``"2"``).
 
 The covariance (``result.cov_params()``) is carried over. Test vectors: rows of
-the training data spread evenly over it, with ``result.predict`` as the risk
-(the original analysis software), added to the description's own vectors.
+the training data spread evenly over it (named by position, counted from 0), with
+``result.predict`` as the risk (the original analysis software), added to the
+description's own vectors.
 """
 
 from __future__ import annotations
@@ -212,17 +213,19 @@ def _test_vectors(result: Any, desc: InputsDescription, n_vectors: int) -> list[
     frame = result.model.data.frame
     columns = {s.id: desc.columns.get(s.id, s.id) for s in desc.inputs}
     present = {i: c for i, c in columns.items() if c in frame.columns}
-    rows = frame.loc[:, list(dict.fromkeys(present.values()))].dropna()
-    if len(rows) == 0:
+    complete = frame.loc[:, list(dict.fromkeys(present.values()))].notna().all(axis=1)
+    positions = np.flatnonzero(complete.to_numpy())
+    if len(positions) == 0:
         raise ModelImportError("no complete row of the training data to make test vectors from")
-    picks = sorted(set(np.linspace(0, len(rows) - 1, n_vectors).round().astype(int)))
-    chosen = frame.loc[rows.index[picks]]
+    picks = sorted(set(np.linspace(0, len(positions) - 1, n_vectors).round().astype(int)))
+    chosen = frame.iloc[positions[picks]]
     risks = np.asarray(result.predict(chosen), dtype=float)
     vectors = []
-    for (label, row), risk in zip(chosen.iterrows(), risks, strict=True):
+    for position, (_, row), risk in zip(positions[picks], chosen.iterrows(), risks,
+                                        strict=True):
         values = {i: _vector_value(desc.input_by_id(i), row[c])  # type: ignore[arg-type]
                   for i, c in present.items()}
-        vectors.append({"name": f"training data row {label}", "values": values,
+        vectors.append({"name": f"training data row {position}", "values": values,
                         "risk": float(risk)})
     return vectors
 
