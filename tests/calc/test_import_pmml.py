@@ -274,6 +274,14 @@ def test_categories_without_reference(desc, regression):
             "coefficient; exactly one (the reference level) may have none") in problems
 
 
+def test_every_category_with_a_non_zero_coefficient(desc, regression):
+    text = regression.replace('value="1" coefficient="0"', 'value="1" coefficient="0.1"')
+    assert _problems(text, desc) == [
+        "CategoricalPredictor name='educ' value='1': every choice of input 'educ' has a "
+        "coefficient; one must be the reference level: without a coefficient, or (in a model "
+        "without covariance) with a coefficient of exactly 0"]
+
+
 def test_targets_with_rescaling(desc, regression):
     text = regression.replace("<MiningSchema>", '<Targets><Target field="vote" '
                               'rescaleFactor="2"/></Targets><MiningSchema>', 1)

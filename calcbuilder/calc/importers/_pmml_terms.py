@@ -173,8 +173,9 @@ def _reference(spec: InputSpec, choices: list[str], by_value: Mapping[str, Sourc
         return None
     zero = [c for c in choices if by_value[c].coefficient == 0 and by_value[c].source is None]
     if not zero:
-        problems.add(where, f"every choice of input {spec.id!r} has a non-zero coefficient; "
-                     "one must be the reference level (no coefficient, or exactly 0)")
+        problems.add(where, f"every choice of input {spec.id!r} has a coefficient; one must "
+                     "be the reference level: without a coefficient, or (in a model without "
+                     "covariance) with a coefficient of exactly 0")
         return None
     return zero[0]
 
