@@ -39,6 +39,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from itertools import pairwise
 from typing import Any
 
 import numpy as np
@@ -46,7 +47,8 @@ from numpy.typing import NDArray
 
 from .. import stats as st
 from ..stats import Metric, PlainLogistic
-from ._terms import design_matrix, resolve_terms
+from ._recipe_transform import PlannedTerm
+from ._terms import ResolvedTerm, design_matrix, resolve_terms
 from .datacheck import Prepared
 
 __all__ = [
@@ -95,17 +97,37 @@ class RecipeProcedure:
     def __init__(self, prepared: Prepared) -> None:
         self.prepared = prepared
         self.firth = prepared.recipe.fit.firth
+        self._plans = prepared.recipe.term_plan
+        self._driven = [_is_data_driven(plan) for plan in self._plans]
+        X, names = prepared.design_matrix()
+        self._names = names
+        self._blocks = _split(X, prepared.terms)
+        self._has_products = any(plan.type == "product" for plan in self._plans)
+
+    def _resolve(self, counts: NDArray[np.int64]) -> list[ResolvedTerm]:
+        """The terms with every data-driven setting placed on the weighted rows."""
+        p = self.prepared
+        terms = list(p.terms)
+        problems: list[str] = []
+        for i, plan in enumerate(self._plans):
+            if self._driven[i] and plan.input is not None:
+                values = {plan.input: np.repeat(p.values[plan.input], counts)}
+                found = resolve_terms([plan], values, p.choices, problems)
+                if found is None:
+                    raise ValueError("; ".join(problems))
+                terms[i] = found[0]
+        return terms
 
     def design(self, weights: FloatArray) -> tuple[FloatArray, list[str]]:
         """The design of the original rows with knots and references placed on the resample."""
         p = self.prepared
-        counts = _counts(weights)
-        values = {k: np.repeat(v, counts) for k, v in p.values.items()}
-        problems: list[str] = []
-        terms = resolve_terms(p.recipe.term_plan, values, p.choices, problems)
-        if terms is None:
-            raise ValueError("; ".join(problems))
-        return design_matrix(terms, p.values, p.choices)
+        terms = self._resolve(_counts(weights))
+        changed = [t != o for t, o in zip(terms, p.terms, strict=True)]
+        if self._has_products and any(changed):
+            return design_matrix(terms, p.values, p.choices)
+        blocks = [design_matrix([t], p.values, p.choices)[0] if c else b
+                  for t, c, b in zip(terms, changed, self._blocks, strict=True)]
+        return np.hstack(blocks), self._names
 
     def __call__(self, X: Any, y: FloatArray, weights: FloatArray
                  ) -> Callable[[Any], FloatArray]:
@@ -118,6 +140,16 @@ class RecipeProcedure:
             return risk[np.asarray(rows, dtype=np.intp)]
 
         return predict
+
+
+def _is_data_driven(plan: PlannedTerm) -> bool:
+    return plan.knots_from_data is not None or (
+        plan.type == "levels" and plan.settings.get("reference") is None)
+
+
+def _split(X: FloatArray, terms: Sequence[ResolvedTerm]) -> list[FloatArray]:
+    edges = np.cumsum([0, *(t.n_columns for t in terms)])
+    return [X[:, a:b] for a, b in pairwise(edges)]
 
 
 def data_driven_steps(prepared: Prepared) -> list[str]:
