@@ -372,6 +372,8 @@ BAD_INPUT = [  # (function, positional arguments, keyword arguments, expected me
     (BOOT, (X4, [0] * 6, PL), {}, "both events and non-events"),
     (BOOT, (X4, Y4, lambda *_: 0.5), {}, "must return a predict(X) function"),
     (BOOT, (X4, Y4, lambda *_: lambda *_: [1.5] * 6), {}, "(original data) must lie in [0, 1]"),
+    (BOOT, (X4, [0, 1, 0, 1, 1, 0], lambda *_: lambda *_: [0.5] * 6), {}, "slope cannot be"),
+    (BOOT, ([[0.0], [1.0], [2.0], [3.0]], [0, 0, 1, 1], PL), {}, "separation"),
     (CV, (X4, Y4, PL), {"k": 1}, "k must be an integer >= 2"),
     (CV, (X4, Y4, PL), {"k": 4}, "k must be at most the smaller outcome class (3)"),
     (CV, (X4, Y4, PL), {"k": 7, "stratify": False}, "k must be at most n"),
