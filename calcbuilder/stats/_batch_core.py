@@ -234,6 +234,7 @@ class Design:
 
 
 def symmetric(flat: FloatArray, iu: tuple[IntArray, IntArray], q: int) -> FloatArray:
+    """(k, q, q) symmetric matrices from their upper triangles (k, q(q+1)/2)."""
     out = np.empty((flat.shape[0], q, q))
     out[:, iu[0], iu[1]] = flat
     out[:, iu[1], iu[0]] = flat

@@ -133,12 +133,15 @@ def resolve_metrics(
 
 
 def generator(seed: int | np.random.Generator | None) -> tuple[np.random.Generator, int | None]:
-    """A generator and the seed to record (fresh entropy is drawn, and recorded, for ``None``)."""
+    """A generator and the seed to record.
+
+    For ``None`` a fresh seed is drawn from operating-system entropy and recorded; it
+    stays below 2**53 so that JSON (and canonical JSON) holds it exactly.
+    """
     if isinstance(seed, np.random.Generator):
         return seed, None
     if seed is None:
-        entropy = np.random.SeedSequence().entropy
-        seed = int(entropy) if isinstance(entropy, int) else 0
+        seed = int(np.random.SeedSequence().generate_state(1, np.uint64)[0] >> np.uint64(11))
     if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
         raise StatsInputError(
             f"seed must be a non-negative int, a numpy Generator or None; got {seed!r}"

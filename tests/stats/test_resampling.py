@@ -118,6 +118,7 @@ def test_reproducible_seed_generator_and_recorded_entropy(anes, anes_boot):
     assert gen.seed is None  # a Generator's state is the caller's to record
     fresh = bootstrap_optimism(X, y, PlainLogistic(), ["brier"], n_boot=5)
     assert isinstance(fresh.seed, int)
+    assert 0 <= fresh.seed < 2**53  # held exactly by JSON numbers
     replay = bootstrap_optimism(X, y, PlainLogistic(), ["brier"], n_boot=5, seed=fresh.seed)
     np.testing.assert_array_equal(replay.test_values, fresh.test_values)
 
