@@ -34,6 +34,9 @@ from ..calc.document import LoadedCalculator, load_calculator, save_calculator
 __all__ = ["register"]
 
 DEFAULT_SEED = 20261202
+READING = ("DATA columns are named by input id (id[unit] for an alternative unit); every value "
+           "is checked as on the clinic form, and rows with a refused or missing required value "
+           "or an empty outcome are excluded and counted.")
 CAUTION = ("These numbers describe the models on these data; they support, and do not "
            "replace, clinical judgement.")
 
@@ -56,9 +59,11 @@ def register(sub: argparse._SubParsersAction) -> None:
         "recalibrate", help="update a calculator's calibration for a new setting",
         description="Recalibrate a logistic calculator on new data: 'intercept' fits "
                     "logit P = a + eta (eta as offset), 'slope' fits logit P = a + b*eta. "
-                    "Evidence before and after is kept; the output is unsigned.")
+                    "Evidence before and after is kept; the output is unsigned.",
+        epilog=READING)
     rec.add_argument("file", type=Path, metavar="FILE", help="the calculator file")
-    rec.add_argument("--method", required=True, choices=("intercept", "slope"))
+    rec.add_argument("--method", required=True, choices=("intercept", "slope"),
+                     help="intercept: update the intercept only; slope: intercept and slope")
     _data_options(rec)
     rec.add_argument("--label", metavar="TEXT",
                      help="name of the new data, e.g. 'Hospital B, 2025' (default: file name)")
@@ -73,7 +78,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     cmp_ = sub.add_parser(
         "compare", help="compare a new calculator with a reference on the same patients",
         description="AUCs (paired DeLong), NRI, continuous NRI, IDI, net benefit and "
-                    "calibration of two calculators on the same rows. Writes nothing.")
+                    "calibration of two calculators on the same rows. Writes nothing.",
+        epilog=READING + " A row refused by either calculator is excluded from both.")
     cmp_.add_argument("new", type=Path, metavar="NEW", help="the new calculator")
     cmp_.add_argument("ref", type=Path, metavar="REF", help="the reference calculator")
     cmp_.add_argument("--cuts", metavar="PCTS",
@@ -233,7 +239,7 @@ def _print_compare(r: Any, data: Any, new: LoadedCalculator, path: Path) -> None
     print(f"Data: {path}, {r.n} rows used, {r.events} events "
           f"(outcome column '{data.outcome.column}').")
     if data.excluded:
-        print(f"Excluded (missing or refused in either model, or no outcome): "
+        print(f"Excluded from both models: "
               f"{data.exclusion_note()}")
     auc = r.auc
     print(f"\n{'':26}{'NEW':>24}{'REF':>24}")

@@ -239,7 +239,10 @@ def _input_columns(calc: Calculator, frame: pd.DataFrame) -> tuple[dict[str, Any
     where: dict[str, str] = {}
     units: dict[str, str | None] = {}
     for header in frame.columns:
-        key, unit = parse_column_header(str(header))
+        try:
+            key, unit = parse_column_header(str(header))
+        except InputValueError:  # not of the form id or id[unit]: not an input column
+            continue
         if key not in ids:
             continue
         if key in where:
