@@ -17,7 +17,7 @@ Reading rules (said in the commands' ``--help``):
   calculator's evidence (``settings.outcome_column`` of the latest evidence set
   that has it, with ``settings.outcome_event``) is used.
 
-pandas is imported only through :func:`calcbuilder.evidence.dataset.read_table`.
+pandas is imported inside the functions that read a table, never at module import.
 """
 
 from __future__ import annotations

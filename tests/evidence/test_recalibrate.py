@@ -389,3 +389,14 @@ def test_demo_model_is_miscalibrated_externally_until_intercept_update(demo):
         demo["res"].params)
     ref = glm_fit(np.empty((data.n, 0)), data.y, offset=lp)
     assert result.fit.intercept == pytest.approx(float(ref.params[0]), abs=1e-6)
+
+
+def test_vectors_our_scoring_does_not_reproduce_are_refused(fair, monkeypatch):
+    import calcbuilder.evidence.recalibrate as module
+
+    real = module.updated_vector_risks
+    monkeypatch.setattr(module, "updated_vector_risks",
+                        lambda calc, fit: [r + 1e-6 for r in real(calc, fit)])
+    data = score_table([fair["calc"]], fair["b"], Outcome("affair"))
+    with pytest.raises(CalcbuilderError, match=r"row 1.*difference 1e-06 > 1e-09"):
+        recalibrate(fair["calc"], data, "slope", name="B", band_boot=0)
