@@ -233,7 +233,12 @@ class FastEngine:
         return Predictions(ok, reasons, coef=coef, Z=self.Z)
 
     def apparent(self) -> Predictions:
-        return self.predict(np.ones((1, self.y.size)), None)
+        pred = self.predict(np.ones((1, self.y.size)), None)
+        if not pred.ok[0]:  # fit_logistic succeeded, so this would be a defect: say so
+            raise StatsInputError(
+                f"the logistic fit to the original data failed: {pred.reasons[0]}"
+            )
+        return pred
 
 
 class SlowEngine:
@@ -271,8 +276,12 @@ class SlowEngine:
         return Predictions(ok, reasons, risk=risk, lp=_logit(risk))
 
     def apparent(self) -> Predictions:
-        predict = self._checked(self.fit(self.X, self.y, np.ones(self.y.size)), "(original data)")
-        risk = self._risk(predict(self.X), "(original data)")[None, :]
+        fitted, reason = _attempt(self.fit, self.X, self.y, np.ones(self.y.size))
+        if not reason:
+            raw, reason = _attempt(self._checked(fitted, "(original data)"), self.X)
+        if reason:
+            raise StatsInputError(f"{reason} (on the original data)")
+        risk = self._risk(raw, "(original data)")[None, :]
         return Predictions(np.ones(1, bool), [""], risk=risk, lp=_logit(risk))
 
 

@@ -355,6 +355,10 @@ def test_blas_is_held_to_one_thread_while_resampling(anes):
 X4, Y4 = [[0.0], [1.0], [2.0], [3.0], [1.5], [0.5]], [0, 1, 0, 1, 1, 0]
 
 
+def _fail_on_everything(X, y, w):
+    raise ValueError("no fit today")
+
+
 BOOT, CV, E632, PL = bootstrap_optimism, cross_validate, efron_632plus, PlainLogistic()
 BAD_INPUT = [  # (function, positional arguments, keyword arguments, expected message)
     (BOOT, (X4, Y4, PL), {"n_boot": 0}, "n_boot must be an integer >= 1; got 0"),
@@ -375,6 +379,7 @@ BAD_INPUT = [  # (function, positional arguments, keyword arguments, expected me
     (BOOT, (X4, Y4, lambda *_: lambda *_: [1.5] * 6), {}, "(original data) must lie in [0, 1]"),
     (BOOT, (X4, [0, 1, 0, 1, 1, 0], lambda *_: lambda *_: [0.5] * 6), {}, "slope cannot be"),
     (BOOT, ([[0.0], [1.0], [2.0], [3.0]], [0, 0, 1, 1], PL), {}, "separation"),
+    (BOOT, (X4, Y4, _fail_on_everything), {}, "ValueError: no fit today (on the original data)"),
     (CV, (X4, Y4, PL), {"k": 1}, "k must be an integer >= 2"),
     (CV, (X4, Y4, PL), {"k": 4}, "k must be at most the smaller outcome class (3)"),
     (CV, (X4, Y4, PL), {"k": 7, "stratify": False}, "k must be at most n"),
