@@ -238,10 +238,10 @@ def bootstrap_optimism(
     >>> res["brier"].corrected > res["brier"].apparent
     True
     """
-    yv, engine = _setup(X, y, procedure)
     mets = resolve_metrics(metrics)
     B = check_count(n_boot, "n_boot", 1)
     rng, used_seed = generator(seed)
+    yv, engine = _setup(X, y, procedure)
     apparent = apparent_values(mets, yv, engine.apparent())
     with blas_threads():
         boot, test, failures = boot_loop(engine, yv, mets, B, rng=rng, bar=Progress(progress, B))
@@ -287,10 +287,10 @@ def efron_632plus(
     [0, 1]), ``w = 0.632 / (1 - 0.368 R)``, ``Err.632+ = (1 - w) err + w
     min(Err(1), gamma)`` (methods.md 6.2).
     """
-    yv, engine = _setup(X, y, procedure)
     mets = resolve_metrics(metrics, allowed=("auc", "brier"))
     B = check_count(n_boot, "n_boot", 1)
     rng, used_seed = generator(seed)
+    yv, engine = _setup(X, y, procedure)
     app = engine.apparent()
     apparent = dict(zip([m.name for m in mets], apparent_values(mets, yv, app), strict=True))
     with blas_threads():
@@ -355,15 +355,18 @@ def cross_validate(
     .. [1] Steyerberg EW, Harrell FE Jr, Borsboom GJ, et al. Internal validation of
            predictive models. J Clin Epidemiol 2001;54:774-781.
     """
-    yv, engine = _setup(X, y, procedure)
     mets = resolve_metrics(metrics)
     k = check_count(k, "k", 2)
     repeats = check_count(repeats, "repeats", 1)
+    if not isinstance(stratify, bool | np.bool_):
+        raise StatsInputError(f"stratify must be True or False; got {stratify!r}")
+    rng, used_seed = generator(seed)
+    yv = as_outcome(y)
     smaller = int(min(yv.sum(), yv.size - yv.sum()))
     if k > yv.size or (stratify and k > smaller):
         limit = f"the smaller outcome class ({smaller}) when stratify=True" if stratify else "n"
         raise StatsInputError(f"k must be at most {limit}; got {k}")
-    rng, used_seed = generator(seed)
+    yv, engine = _setup(X, yv, procedure)
     with blas_threads():
         bar = Progress(progress, k * repeats)
         cv = cv_loop(engine, yv, mets, k=k, repeats=repeats, stratify=stratify, rng=rng, bar=bar)

@@ -384,6 +384,7 @@ BAD_INPUT = [  # (function, positional arguments, keyword arguments, expected me
     (CV, (X4, Y4, PL), {"k": 4}, "k must be at most the smaller outcome class (3)"),
     (CV, (X4, Y4, PL), {"k": 7, "stratify": False}, "k must be at most n"),
     (CV, (X4, Y4, PL), {"k": 2, "repeats": 0}, "repeats must be an integer >= 1"),
+    (CV, (X4, Y4, PL), {"k": 2, "stratify": "yes"}, "stratify must be True or False"),
 ]
 
 
