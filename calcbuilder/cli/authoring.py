@@ -15,6 +15,11 @@
 --label TEXT -o OUT``
     An ``imported`` evidence set from outcomes and risks computed elsewhere.
 
+``calcbuilder import evidence FILE SUMMARY.(csv|json) -o OUT [--json]``
+    Attach evidence computed elsewhere (``docs/evidence-import.md``), checked for
+    consistency, as an ``imported`` evidence set (registered in the ``import``
+    group by :func:`register_import_evidence`).
+
 Each assess run adds one evidence set and writes a new file; a signature on
 the input file is removed (the new file must be signed again). Long steps show
 a progress bar with ETA on a terminal; Ctrl-C stops without writing anything.
@@ -30,7 +35,7 @@ from typing import Any
 
 from .progress import progress_bar
 
-__all__ = ["register"]
+__all__ = ["register", "register_import_evidence"]
 
 SYNTHETIC = "SYNTHETIC DEMONSTRATION MATERIAL - not for clinical use"
 SHOWN = ("auc", "calibration_intercept", "calibration_slope", "brier", "scaled_brier", "ici",
@@ -238,4 +243,37 @@ def _cmd_assess(args: argparse.Namespace) -> int:
         print("It is not signed yet: check it, then sign it with calcbuilder sign.")
     if calc.about.synthetic:
         print(SYNTHETIC)
+    return 0
+
+
+def register_import_evidence(actions: argparse._SubParsersAction) -> None:
+    """Add ``import evidence`` to the ``import`` command group."""
+    p = actions.add_parser(
+        "evidence", help="attach evidence computed elsewhere (JSON or CSV summary)",
+        description="Attach performance evidence computed elsewhere, checked for consistency, "
+                    "as an 'imported' evidence set. Formats: docs/evidence-import.md.")
+    p.add_argument("file", type=Path, metavar="FILE", help="the calculator file")
+    p.add_argument("summary", type=Path, metavar="SUMMARY", help="the summary (.json or .csv)")
+    p.add_argument("-o", "--output", type=Path, required=True, metavar="OUT.calc.json")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.set_defaults(func=_cmd_import_evidence)
+
+
+def _cmd_import_evidence(args: argparse.Namespace) -> int:
+    from ..evidence.imported import import_evidence
+
+    calc, evidence, removed = import_evidence(args.file, args.summary, output=args.output)
+    if args.json:
+        print(json.dumps({"output": str(args.output), "evidence_id": evidence["id"],
+                          "kind": "imported", "file_fingerprint": calc.fingerprint,
+                          "signature_removed": removed}, indent=2))
+        return 0
+    print(f"Added evidence set '{evidence['id']}' (imported: {evidence['label']}; source: "
+          f"{evidence['source']}) to {args.output}")
+    print(f"file fingerprint: {calc.fingerprint}")
+    if removed:
+        print("Note: the input file was signed; its signature no longer applies and was "
+              "removed. Sign the new file with calcbuilder sign.")
+    else:
+        print("It is not signed yet: check it, then sign it with calcbuilder sign.")
     return 0

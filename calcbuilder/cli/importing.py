@@ -19,6 +19,8 @@ import json
 from collections.abc import Callable
 from pathlib import Path
 
+from .authoring import register_import_evidence
+
 __all__ = ["SOURCES", "register"]
 
 
@@ -80,7 +82,8 @@ def _register_pmml(actions: argparse._SubParsersAction) -> None:
 
 
 #: One function per import source, in --help order; each adds its sub-parser.
-SOURCES: list[Callable[[argparse._SubParsersAction], None]] = [_register_table, _register_pmml]
+SOURCES: list[Callable[[argparse._SubParsersAction], None]] = [
+    _register_table, _register_pmml, register_import_evidence]
 
 
 def register(sub: argparse._SubParsersAction) -> None:
