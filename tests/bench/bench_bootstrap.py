@@ -35,7 +35,7 @@ import statsmodels.api as sm
 from sklearn.metrics import brier_score_loss, roc_auc_score
 
 from calcbuilder.stats import _batch_core
-from calcbuilder.stats.resampling import PlainLogistic, bootstrap_optimism
+from calcbuilder.stats.resampling import BootstrapValidation, PlainLogistic, bootstrap_optimism
 
 METRICS = ["auc", "brier", "calibration_slope"]
 P = 8
@@ -85,7 +85,9 @@ def blas_threads(limit: int | None) -> Iterator[None]:
         _batch_core.BLAS_THREADS = old
 
 
-def time_ours(X: np.ndarray, y: np.ndarray, n_boot: int, seed: int) -> tuple[float, object]:
+def time_ours(
+    X: np.ndarray, y: np.ndarray, n_boot: int, seed: int
+) -> tuple[float, BootstrapValidation]:
     t0 = time.perf_counter()
     res = bootstrap_optimism(X, y, PlainLogistic(), METRICS, n_boot=n_boot, seed=seed)
     return time.perf_counter() - t0, res
@@ -109,12 +111,12 @@ def run(n: int, n_boot: int, ref_boot: int, seed: int, compare_blas: bool) -> No
     t_ref_measured = time.perf_counter() - t0
     t_ref = t_ref_measured * n_boot / ref_boot
     diff_rep = max(
-        np.abs(res.bootstrap_values[:ref_boot] - ref["boot"]).max(),  # type: ignore[attr-defined]
-        np.abs(res.test_values[:ref_boot] - ref["test"]).max(),  # type: ignore[attr-defined]
+        np.abs(res.bootstrap_values[:ref_boot] - ref["boot"]).max(),
+        np.abs(res.test_values[:ref_boot] - ref["test"]).max(),
     )
-    apparent = np.array([res[m].apparent for m in METRICS])  # type: ignore[index]
+    apparent = np.array([res[m].apparent for m in METRICS])
     print(f"\nn = {n:,}, p = {P}, B = {n_boot}, events = {int(y.sum()):,}")
-    print(f"  ours (batched)           {t_ours:9.2f} s   failed resamples: {res.n_failed}")  # type: ignore[attr-defined]
+    print(f"  ours (batched)           {t_ours:9.2f} s   failed resamples: {res.n_failed}")
     note = (
         ""
         if ref_boot == n_boot
@@ -128,7 +130,7 @@ def run(n: int, n_boot: int, ref_boot: int, seed: int, compare_blas: bool) -> No
     )
     if ref_boot == n_boot:
         corr_ref = ref["apparent"] - (ref["boot"] - ref["test"]).mean(axis=0)
-        corr = np.array([res[m].corrected for m in METRICS])  # type: ignore[index]
+        corr = np.array([res[m].corrected for m in METRICS])
         print(
             f"  largest difference of the corrected estimates {np.abs(corr - corr_ref).max():.2e}"
         )
