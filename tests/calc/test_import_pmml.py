@@ -8,11 +8,14 @@ own templates following the Data Mining Group PMML 4.x structure (see
 
 from __future__ import annotations
 
+import contextlib
 import importlib.util
 from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from calcbuilder.calc.importers import (
     ModelImportError,
@@ -344,3 +347,21 @@ def _raw_description():
     import tomllib
 
     return tomllib.loads((FIXTURES / "anes96.inputs.toml").read_text("utf-8"))
+
+
+# -- never a traceback ------------------------------------------------------------------------
+
+REGRESSION_TEXT = (FIXTURES / "anes96.regression.pmml").read_text("utf-8")
+GENERAL_TEXT = (FIXTURES / "anes96.general.pmml").read_text("utf-8")
+DESC = load_description(FIXTURES / "anes96.inputs.toml")
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.sampled_from([REGRESSION_TEXT, GENERAL_TEXT]), st.data())
+def test_damaged_documents_are_refused_cleanly(text, data):
+    # cut out a random piece of a valid document: either still valid or a clean refusal
+    start = data.draw(st.integers(0, len(text) - 1))
+    length = data.draw(st.integers(1, 80))
+    damaged = text[:start] + text[start + length:]
+    with contextlib.suppress(ModelImportError):
+        _import(damaged, DESC)

@@ -7,12 +7,15 @@ inside statsmodels; its ``predict`` is the risk every import must reproduce
 
 from __future__ import annotations
 
+import contextlib
 import importlib.util
 import tomllib
 from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from calcbuilder.calc.importers import (
     ModelImportError,
@@ -310,3 +313,20 @@ def test_nothing_is_written_when_the_import_fails(tmp_path):
     with pytest.raises(ModelImportError):
         import_table(tmp_path / "c.csv", FIXTURES / "anes96.inputs.toml", tmp_path / "o.json")
     assert list(tmp_path.iterdir()) == [tmp_path / "c.csv"]
+
+
+# -- never a traceback ------------------------------------------------------------------------
+
+DESC = load_description(FIXTURES / "anes96.inputs.toml")
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.data())
+def test_damaged_tables_are_refused_cleanly(data):
+    # replace a random piece of a valid table with random text: valid, or a clean refusal
+    start = data.draw(st.integers(0, len(GOOD) - 1))
+    length = data.draw(st.integers(0, 30))
+    insert = data.draw(st.text(alphabet=st.sampled_from(list(',"[]:()\n\r;0123456789.e-ax ')),
+                               max_size=10))
+    with contextlib.suppress(ModelImportError):
+        validate(_document(GOOD[:start] + insert + GOOD[start + length:], DESC), SRC)
