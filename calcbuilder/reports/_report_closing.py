@@ -16,6 +16,7 @@ from typing import Any
 from reportlab.platypus import Flowable, Paragraph, Spacer
 
 from ..calc.canonical import SIGNATURE_KEY
+from ..calc.evidence_sets import EvidenceSet
 from ..calc.signing import TrustState
 from ._report_style import Context, bullets, esc, facts_table, grid_table, notice
 from ._report_text import (
@@ -27,56 +28,84 @@ from ._report_text import (
     percent,
 )
 
-__all__ = ["RECLASSIFICATION_CAUTION", "limitations_story", "reclassification_story",
-           "sample_size_story", "signature_story"]
+__all__ = ["RECLASSIFICATION_CAUTION", "limitations_story", "reclassification_groups",
+           "reclassification_story", "sample_size_story", "signature_story"]
 
 RECLASS_LABELS = {
     "nri_events": "NRI, people with the outcome",
     "nri_nonevents": "NRI, people without the outcome",
     "nri_total": "NRI, total (categorical)",
-    "nri": "NRI, total (categorical)",
     "continuous_nri": "Continuous (category-free) NRI",
-    "nri_continuous": "Continuous (category-free) NRI",
     "continuous_nri_events": "Continuous NRI, people with the outcome",
     "continuous_nri_nonevents": "Continuous NRI, people without the outcome",
     "idi": "Integrated discrimination improvement (IDI)",
     "auc_difference": "AUC difference (this model − reference)",
-    "delta_auc": "AUC difference (this model − reference)",
-    "auc_model": "AUC of this model",
     "auc_new": "AUC of this model",
-    "auc_reference": "AUC of the reference model",
-    "auc_old": "AUC of the reference model",
+    "auc_ref": "AUC of the reference model",
+    "calibration_slope_new": "Calibration slope, this model",
+    "calibration_slope_ref": "Calibration slope, reference model",
+    "calibration_intercept_new": "Calibration intercept, this model",
+    "calibration_intercept_ref": "Calibration intercept, reference model",
 }
 _SUFFIXES = ("low", "high", "se", "p_value", "p", "z")
-_TEXT_KEYS = ("reference", "reference_model", "reference_label")
+_OWNERS = {"nri": "nri_total", "auc": "auc_difference"}  # 'nri_se' belongs to 'nri_total'
+_SKIP = ("reference", "reference_fingerprint", "cuts", "n", "events", "thresholds",
+         "net_benefit_difference", "warnings")
 RECLASSIFICATION_CAUTION = (
     "Net reclassification and discrimination-improvement indices can reward a miscalibrated "
     "model: a model that simply over- or under-estimates risk can move people across the "
     "cut-offs and score a positive NRI or IDI without being more useful. Read them together "
     "with the calibration results and the decision curves.")
-_SAMPLE_SIZE = re.compile(r"sample[ _-]?size|events[ _-]per|epp\b|epv\b|minimum[ _-]n\b",
-                          re.IGNORECASE)
+_SAMPLE_SIZE = re.compile(r"sample[ _-]?size|events[ _-]per|riley|minimum[ _-](rows|n)\b|"
+                          r"anticipated[ _-]r2|\bep[pv]\b", re.IGNORECASE)
 
 
-def _split(block: Mapping[str, Any]) -> tuple[dict[str, dict[str, Any]], list[str]]:
-    """Numbers grouped by base name ({'idi': {'value':..,'low':..}}) and other lines."""
-    numbers = {k: v for k, v in block.items() if isinstance(v, int | float)
-               and not isinstance(v, bool)}
+def _is_number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _owner(key: str, numbers: Mapping[str, Any]) -> tuple[str, str] | None:
+    """(base, suffix) when ``key`` is a companion (low, se, p-value, ...) of another number."""
+    for suffix in _SUFFIXES:
+        if key.endswith("_" + suffix):
+            base = key[: -len(suffix) - 1]
+            base = base if base in numbers else _OWNERS.get(base, "")
+            if base in numbers and base != key:
+                return base, suffix
+    return None
+
+
+def reclassification_groups(block: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
+    """Numbers of a reclassification block grouped by measure: {'idi': {'value', 'low', ...}}.
+
+    A list of three numbers is read as (value, low, high).
+    """
+    numbers = {k: v for k, v in block.items() if k not in _SKIP and (_is_number(v) or v is None)}
     groups: dict[str, dict[str, Any]] = {}
     for key, value in numbers.items():
-        base, _, suffix = key.rpartition("_")
-        if key.endswith("_p_value"):
-            base, suffix = key[: -len("_p_value")], "p_value"
-        if base in numbers and suffix in _SUFFIXES:
-            groups.setdefault(base, {})[suffix] = value
+        owned = _owner(key, numbers)
+        if owned is not None:
+            groups.setdefault(owned[0], {})[owned[1]] = value
         else:
             groups.setdefault(key, {})["value"] = value
-    others = []
     for key, value in block.items():
-        if key in numbers or key in _TEXT_KEYS or key == "cuts":
+        if (key not in _SKIP and isinstance(value, list | tuple) and len(value) == 3
+                and all(v is None or _is_number(v) for v in value)):
+            groups[key] = {"value": value[0], "low": value[1], "high": value[2]}
+    return groups
+
+
+def _other_lines(block: Mapping[str, Any], groups: Mapping[str, Any]) -> list[str]:
+    out = []
+    for key, value in block.items():
+        if key in _SKIP or key in groups or _is_number(value) or value is None:
             continue
-        others.append(f"{esc(metric_label(key))}: {esc(str(value))}")
-    return groups, others
+        text = str(value)
+        if isinstance(value, list | tuple):
+            text = "[" + ", ".join(str(v) for v in value[:12]) + (
+                " …]" if len(value) > 12 else "]")
+        out.append(f"{esc(metric_label(key))}: {esc(text)}")
+    return out
 
 
 def _reclass_rows(ctx: Context, groups: Mapping[str, Mapping[str, Any]]) -> list[list[Any]]:
@@ -99,6 +128,50 @@ def _reclass_rows(ctx: Context, groups: Mapping[str, Mapping[str, Any]]) -> list
     return rows
 
 
+def _nb_difference(ctx: Context, block: Mapping[str, Any]) -> list[Flowable]:
+    t, diff = block.get("thresholds"), block.get("net_benefit_difference")
+    if not isinstance(t, list | tuple) or not isinstance(diff, list | tuple) or \
+            len(t) != len(diff) or not t:
+        return []
+    low, high = ctx.calc.decision.reasonable_range
+    picked = [i for i, v in enumerate(t) if low - 1e-9 <= v <= high + 1e-9]
+    picked = picked[:: max(1, -(-len(picked) // 8))] or list(range(len(t)))[:8]
+    cells = [f"{percent(t[i])}: {'—' if diff[i] is None else f'{diff[i] * 100:+.2f}'}"
+             for i in picked]
+    return [Paragraph("Net benefit of this model minus the reference, per 100 patients, at "
+                      "thresholds in the reasonable range: " + "; ".join(cells) + ".",
+                      ctx.st.small)]
+
+
+def _comparison_story(ctx: Context, label: str, block: Mapping[str, Any]) -> list[Flowable]:
+    st = ctx.st
+    reference = str(block.get("reference") or "a reference model (not named)")
+    out: list[Flowable] = [Paragraph(f"{esc(label)}: compared with {esc(reference)}", st.h2)]
+    facts = []
+    if _is_number(block.get("n")):
+        events = f", {integer(block['events'])} with the outcome" if _is_number(
+            block.get("events")) else ""
+        facts.append(f"Same {integer(block['n'])} patients for both models{events}.")
+    if block.get("reference_fingerprint"):
+        fingerprint = esc(str(block["reference_fingerprint"]))
+        facts.append(f"Reference calculator fingerprint: {fingerprint}.")
+    cuts = block.get("cuts")
+    if isinstance(cuts, list | tuple) and cuts:
+        facts.append("Risk categories for the categorical NRI are cut at "
+                     + ", ".join(percent(c) for c in cuts) + ".")
+    out += [Paragraph(" ".join(facts), st.small)] if facts else []
+    groups = reclassification_groups(block)
+    parts = [200, 70, 110, 60, 60]
+    scale = ctx.width / sum(parts)
+    out.append(grid_table(_reclass_rows(ctx, groups), [p * scale for p in parts]))
+    out += _nb_difference(ctx, block)
+    out += [Paragraph(line, st.grey) for line in _other_lines(block, groups)]
+    if block.get("warnings"):
+        out += notice(["<b>Warning recorded with the comparison.</b> "
+                       + esc(str(block["warnings"]))], ctx.width, st)
+    return [*out, Spacer(1, 3)]
+
+
 def reclassification_story(ctx: Context) -> list[Flowable]:
     """NRI, IDI and AUC difference against the reference model, with the caution."""
     st = ctx.st
@@ -107,32 +180,49 @@ def reclassification_story(ctx: Context) -> list[Flowable]:
         return [Paragraph("No comparison with a reference model is attached.", st.body)]
     out: list[Flowable] = []
     for ev in sets:
-        block = ev.raw["reclassification"]
-        reference = next((str(block[k]) for k in _TEXT_KEYS if block.get(k)), "not named")
-        groups, others = _split(block)
-        out.append(Paragraph(f"{esc(ev.label)}: compared with {esc(reference)}", st.h2))
-        cuts = block.get("cuts")
-        if isinstance(cuts, list | tuple) and cuts:
-            out.append(Paragraph("Risk categories for the categorical NRI cut at "
-                                 + ", ".join(percent(c) for c in cuts) + ".", st.small))
-        parts = [200, 70, 110, 60, 60]
-        scale = ctx.width / sum(parts)
-        out.append(grid_table(_reclass_rows(ctx, groups), [p * scale for p in parts]))
-        out += [Paragraph(line, st.grey) for line in others]
-        out.append(Spacer(1, 3))
+        out += _comparison_story(ctx, ev.label, ev.raw["reclassification"])
     return out + notice(["<b>Caution.</b> " + esc(RECLASSIFICATION_CAUTION)], ctx.width, st)
 
 
-def _recorded(ctx: Context) -> list[tuple[str, list[str]]]:
+SETTING_LABELS = {
+    "riley_minimum_rows": "Minimum development size by Riley et al.'s criteria (rows)",
+    "riley_binding_criterion": "Binding criterion",
+    "events_per_parameter": "Events per candidate parameter",
+    "anticipated_r2_cs": "Anticipated Cox–Snell R² used",
+    "parameters": "Candidate parameters",
+}
+
+
+def _setting_text(value: Any) -> str:
+    return integer(value) if _is_number(value) and float(value).is_integer() else (
+        f"{value:.4g}" if _is_number(value) else esc(str(value)))
+
+
+def _recorded(ctx: Context) -> list[tuple[EvidenceSet, list[str]]]:
     found = []
     for ev in ctx.calc.evidence:
         settings = ev.raw.get("settings") or {}
-        lines = [f"{esc(metric_label(k))}: {esc(str(v))}" for k, v in settings.items()
-                 if _SAMPLE_SIZE.search(k)]
+        keys = [k for k in settings if _SAMPLE_SIZE.search(k)]
+        if keys and "parameters" in settings:
+            keys.append("parameters")
+        lines = [f"{esc(SETTING_LABELS.get(k, metric_label(k)))}: {_setting_text(settings[k])}"
+                 for k in keys]
         lines += [esc(n) for n in ev.raw.get("notes") or () if _SAMPLE_SIZE.search(n)]
         if lines:
-            found.append((ev.label, lines))
+            found.append((ev, lines))
     return found
+
+
+def _verdict(ev: EvidenceSet) -> str | None:
+    settings = ev.raw.get("settings") or {}
+    need = settings.get("riley_minimum_rows")
+    if not _is_number(need):
+        return None
+    used = settings.get("rows_used", ev.n)
+    word = "meets" if used >= need else "falls short of"
+    return (f"<b>{integer(used)} rows used {word} the recorded minimum of {integer(need)}.</b>"
+            + ("" if used >= need else " Expect overfitting; rely on the optimism-corrected "
+               "and external evidence."))
 
 
 def sample_size_story(ctx: Context) -> list[Flowable]:
@@ -140,8 +230,10 @@ def sample_size_story(ctx: Context) -> list[Flowable]:
     st = ctx.st
     out: list[Flowable] = []
     recorded = _recorded(ctx)
-    for label, lines in recorded:
-        out += [Paragraph(esc(label), st.h2), *bullets(lines, st.body)]
+    for ev, lines in recorded:
+        verdict = _verdict(ev)
+        out += [Paragraph(esc(ev.label), st.h2), *bullets(lines, st.body)]
+        out += [Paragraph(verdict, st.body)] if verdict else []
     if not recorded:
         out.append(Paragraph("No sample-size assessment is recorded in this calculator file's "
                              "evidence. Whether the development data were large enough (for "

@@ -71,7 +71,8 @@ def _row(st: ReportStyles, number: str, term: str, symbol: str, beta: float, *,
 
 
 def _widths(width: float, survival: bool) -> list[float]:
-    parts = [14, 64, 96, 84, 48, 104, 105] + ([52] if survival else [])
+    parts = ([18, 52, 86, 100, 38, 90, 70, 61] if survival else
+             [18, 66, 92, 94, 34, 108, 103])
     scale = width / sum(parts)
     return [p * scale for p in parts]
 

@@ -273,7 +273,7 @@ def equation_story(calc: Calculator, st: ReportStyles) -> list[Flowable]:
     out += [Paragraph(line, st.equation) for line in equation_lines(calc)]
     out.append(Paragraph("Definitions:", st.body))
     defs = definition_lines(calc.model)
-    out += bullets(defs, st.small)
+    out += bullets(defs, st.formula)
     if any(isinstance(t.transform, Rcs) for t in calc.model.terms):
-        out.append(Paragraph(RCS_GENERAL, st.small))
+        out.append(Paragraph(RCS_GENERAL, st.formula))
     return out

@@ -33,6 +33,7 @@ from ._report_text import percent
 __all__ = ["calibration_story", "decision_story", "net_benefit_rows"]
 
 _DPI = 200
+_CAL_SIZE = (3.6, 4.4)  # inches: room for the histogram and a note under the axes
 
 
 def _image(fig: Any) -> Image:
@@ -81,8 +82,7 @@ def _calibration_figure(ctx: Context, ev: EvidenceSet) -> Any:
         rows = _kept(curve, ("risk", "observed", "low", "high"))
         risk, observed = _pick(curve, "risk", rows), _pick(curve, "observed", rows)
         low, high = _pick(curve, "low", rows), _pick(curve, "high", rows)
-        label = "Smoothed calibration curve" + (
-            f" ({curve['smoother']})" if curve.get("smoother") else "")
+        label = "Smoothed calibration curve"
     else:
         assert grouped is not None  # only sets with a curve or grouped points get here
         risk, observed = [g[0] for g in grouped], [g[1] for g in grouped]
@@ -90,14 +90,14 @@ def _calibration_figure(ctx: Context, ev: EvidenceSet) -> Any:
         label = "Grouped points joined (no smoothed curve stored)"
     return calibration_figure(risk or [], observed or [], band_low=low, band_high=high,
                               grouped=grouped, histogram=histogram, label=label,
-                              synthetic=ctx.synthetic, medium="print")
+                              synthetic=ctx.synthetic, medium="print", size=_CAL_SIZE)
 
 
 def _grouped_table(ev: EvidenceSet, st: ReportStyles, width: float) -> list[Flowable]:
     groups = ev.raw.get("grouped_calibration") or ()
     if not groups:
         return [Paragraph("No grouped calibration is stored for this evidence set.", st.grey)]
-    head = ["Group", "n", "Mean predicted", "Observed (95% CI)"]
+    head = ["#", "n", "Mean predicted", "Observed (95% CI)"]
     rows: list[list[Flowable]] = [[Paragraph(h, st.cell_bold) for h in head]]
     for i, g in enumerate(groups, start=1):
         ci = (f" ({percent(g['low'])}–{percent(g['high'])})"
@@ -105,7 +105,7 @@ def _grouped_table(ev: EvidenceSet, st: ReportStyles, width: float) -> list[Flow
         rows.append([Paragraph(str(i), st.cell), Paragraph(f"{g['n']:,.0f}", st.cell_mono),
                      Paragraph(percent(g["mean_risk"]), st.cell_mono),
                      Paragraph(percent(g["observed"]) + ci, st.cell_mono)])
-    parts = [28, 36, 52, 96]
+    parts = [16, 32, 54, 108]
     scale = width / sum(parts)
     return [Paragraph("Grouped calibration", st.cell_bold), Spacer(1, 2),
             grid_table(rows, [p * scale for p in parts])]
@@ -134,10 +134,13 @@ def calibration_story(ctx: Context) -> list[Flowable]:
             figure: Flowable = _image(_calibration_figure(ctx, ev))
         except PlotInputError as exc:
             figure = _failed(exc, st)
-        left_w = 262
+        left_w = _CAL_SIZE[0] * 72 + 4
         table = _grouped_table(ev, st, ctx.width - left_w - 8)
-        out += [Paragraph(esc(ev.label), st.h2), _side_by_side(figure, table, left_w, ctx.width),
-                Spacer(1, 4)]
+        smoother = (ev.raw.get("calibration_curve") or {}).get("smoother")
+        if smoother:
+            table += [Spacer(1, 4), Paragraph(f"Smoother: {esc(str(smoother))}", st.grey)]
+        out += [KeepTogether([Paragraph(esc(ev.label), st.h2),
+                              _side_by_side(figure, table, left_w, ctx.width)]), Spacer(1, 4)]
     return out
 
 
@@ -226,7 +229,6 @@ def decision_story(ctx: Context) -> list[Flowable]:
             figure: Flowable = _image(fig)
         except PlotInputError as exc:
             figure = _failed(exc, st)
-        out += [Paragraph(esc(ev.label), st.h2),
-                KeepTogether([figure, Spacer(1, 3), *_nb_table(ctx, ev, ctx.width)]),
-                Spacer(1, 6)]
+        out += [KeepTogether([Paragraph(esc(ev.label), st.h2), figure, Spacer(1, 3),
+                              *_nb_table(ctx, ev, ctx.width)]), Spacer(1, 6)]
     return out

@@ -6,6 +6,9 @@ the flowables of one section body (the document adds the numbered heading).
 
 from __future__ import annotations
 
+import contextlib
+import json
+
 from reportlab.lib import colors
 from reportlab.platypus import Flowable, Paragraph, Spacer, Table, TableStyle
 
@@ -140,10 +143,33 @@ def scope_story(ctx: Context) -> list[Flowable]:
     return out
 
 
-def _settings_text(ev: EvidenceSet) -> str:
-    settings = ev.raw.get("settings") or {}
-    return "; ".join(f"{k} = {exact(v) if isinstance(v, float | int) else v}"
-                     for k, v in settings.items())
+_LONG = 160
+
+
+def _settings_parts(ev: EvidenceSet) -> tuple[str, list[tuple[str, str]]]:
+    """Short settings as one 'key = value; ...' line, and long ones apart."""
+    short, long = [], []
+    for key, value in (ev.raw.get("settings") or {}).items():
+        text = exact(value) if isinstance(value, float | int) else str(value)
+        if len(text) > _LONG:
+            long.append((key, text))
+        else:
+            short.append(f"{key} = {text}")
+    return "; ".join(short), long
+
+
+def _long_setting(key: str, text: str, ctx: Context) -> list[Flowable]:
+    """A long recorded setting in small mono type; JSON gets spaces so it can wrap."""
+    with contextlib.suppress(ValueError):
+        text = json.dumps(json.loads(text), ensure_ascii=False, separators=(", ", ": "))
+    cut = len(text) > _LONG_MAX
+    shown = esc(text[:_LONG_MAX]) + (f" … ({len(text):,} characters in all; the file holds "
+                                     "the rest)" if cut else "")
+    return [Paragraph(f"Recorded setting ‘{esc(key)}’:", ctx.st.grey),
+            Paragraph(shown, ctx.st.cell_tiny)]
+
+
+_LONG_MAX = 6000
 
 
 def _source_card(ctx: Context, ev: EvidenceSet) -> list[Flowable]:
@@ -164,12 +190,15 @@ def _source_card(ctx: Context, ev: EvidenceSet) -> list[Flowable]:
     for key, label in (("source", "Computed by / source"), ("created", "Created")):
         if ev.raw.get(key):
             pairs.append((label, str(ev.raw[key])))
-    settings = _settings_text(ev)
+    settings, long = _settings_parts(ev)
     if settings:
         pairs.append(("Settings", settings))
     head = Paragraph(f"{esc(ev.label)} <font color='#555555'>(evidence set "
                      f"‘{esc(ev.id)}’)</font>", st.h2)
-    return [head, facts_table(pairs, ctx.width, st)]
+    out: list[Flowable] = [head, facts_table(pairs, ctx.width, st)]
+    for key, text in long:
+        out += _long_setting(key, text, ctx)
+    return out
 
 
 def data_story(ctx: Context) -> list[Flowable]:

@@ -56,12 +56,14 @@ class ReportStyles:
         self.cell_bold = ParagraphStyle("r-cell-bold", self.cell, fontName=FONT_BOLD)
         self.cell_mono = ParagraphStyle("r-cell-mono", self.cell, fontName=FONT_MONO,
                                         fontSize=7, leading=9)
-        self.cell_tiny = ParagraphStyle("r-cell-tiny", self.cell_mono, fontSize=6.5,
-                                        leading=8.5)
+        self.cell_tiny = ParagraphStyle("r-cell-tiny", self.cell_mono, fontSize=6.2,
+                                        leading=8.2)
         self.cell_right = ParagraphStyle("r-cell-right", self.cell, alignment=2)
         self.mono = ParagraphStyle("r-mono", self.small, fontName=FONT_MONO, fontSize=7.2)
         self.equation = ParagraphStyle("r-eq", base, fontSize=8.5, leading=12.5, leftIndent=14,
                                        firstLineIndent=-14, spaceAfter=1)
+        self.formula = ParagraphStyle("r-formula", base, fontSize=7.8, leading=13,
+                                      spaceAfter=1)
         self.title = ParagraphStyle("r-title", base, fontName=FONT_BOLD, fontSize=19,
                                     leading=23, spaceAfter=4)
         self.subtitle = ParagraphStyle("r-subtitle", base, fontSize=11, leading=14,

@@ -133,8 +133,9 @@ def _value(metric: Mapping[str, Any] | None) -> float | None:
 
 
 def _triplet(name: str, metrics: Mapping[str, Any], apparent: EvidenceSet | None
-             ) -> tuple[float | None, float | None, Mapping[str, Any]]:
-    """(apparent, optimism, corrected metric) of one metric of a bootstrap set."""
+             ) -> tuple[float | None, float | None, Mapping[str, Any], bool]:
+    """(apparent, optimism, corrected metric, apparent borrowed from the apparent set)."""
+    borrowed = False
     if f"{name}_corrected" in metrics:
         app, corrected = _value(metrics[name]), metrics[f"{name}_corrected"]
     else:
@@ -142,10 +143,11 @@ def _triplet(name: str, metrics: Mapping[str, Any], apparent: EvidenceSet | None
         app = _value(metrics.get(f"{name}_apparent"))
         if app is None and apparent is not None:
             app = _value(apparent.metric(name))
+            borrowed = app is not None
     optimism = _value(metrics.get(f"{name}_optimism"))
     if optimism is None and app is not None and corrected.get("value") is not None:
         optimism = app - corrected["value"]
-    return app, optimism, corrected
+    return app, optimism, corrected, borrowed
 
 
 def _resampling_line(ev: EvidenceSet) -> str:
@@ -168,8 +170,10 @@ def _bootstrap_table(ctx: Context, ev: EvidenceSet) -> list[Flowable]:
                      if a.kind == "apparent" and same_data(a, ev)), None)
     head = ["Measure", "Apparent", "Optimism", "Corrected", "95% CI (corrected)"]
     rows: list[list[Flowable]] = [[Paragraph(h, st.cell_bold) for h in head]]
+    borrowed = False
     for name in metric_names(metrics):
-        app, opt, corrected = _triplet(name, metrics, apparent)
+        app, opt, corrected, took = _triplet(name, metrics, apparent)
+        borrowed = borrowed or took
         rows.append([Paragraph(esc(metric_label(name)), st.cell),
                      Paragraph(metric_number(app), st.cell_mono),
                      Paragraph(metric_number(opt), st.cell_mono),
@@ -178,7 +182,7 @@ def _bootstrap_table(ctx: Context, ev: EvidenceSet) -> list[Flowable]:
     parts = [190, 70, 70, 70, 115]
     scale = ctx.width / sum(parts)
     out: list[Flowable] = [grid_table(rows, [p * scale for p in parts]), Spacer(1, 2)]
-    if apparent is not None:
+    if borrowed and apparent is not None:
         out.append(Paragraph(f"Apparent values not stored with the resampling results are "
                              f"taken from ‘{esc(apparent.label)}’ (same data).", st.grey))
     return out

@@ -13,7 +13,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
-from reportlab.platypus import Flowable, Paragraph, Spacer
+from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer
 
 from .. import __version__
 from ..calc.checking import check_patient
@@ -58,7 +58,7 @@ def _value_text(spec: InputSpec, value: Any) -> str:
     return f"{exact(value)}{unit}"
 
 
-def _block(ctx: Context, start: int, stop: int, scores: Score | None) -> Flowable:
+def _block(ctx: Context, start: int, stop: int, scores: Score | None, per: int) -> Flowable:
     st, calc = ctx.st, ctx.calc
     vectors = calc.test_vectors[start:stop]
     head = ["Input"] + [f"{i + 1}. {esc(v.name)}" for i, v in enumerate(vectors, start)]
@@ -89,8 +89,8 @@ def _block(ctx: Context, start: int, stop: int, scores: Score | None) -> Flowabl
         rows.append([Paragraph("Difference (recomputed − stated)", st.cell)]
                     + [Paragraph(f"{float(scores.risk[i]) - v.risk:.1e}", st.cell_tiny)
                        for i, v in enumerate(vectors, start)])
-    label_w = 128.0
-    col_w = (ctx.width - label_w) / PER_BLOCK
+    label_w = 104.0
+    col_w = (ctx.width - label_w) / per
     return grid_table(rows, [label_w] + [col_w] * len(vectors), zebra=True)
 
 
@@ -98,14 +98,18 @@ def vectors_story(ctx: Context) -> list[Flowable]:
     """Every test vector with its inputs, intermediate values and risks."""
     st, calc = ctx.st, ctx.calc
     scores = vector_scores(calc)
-    out: list[Flowable] = [Paragraph(
+    intro = Paragraph(
         "Test vectors let anyone check an implementation of the equation: with the inputs in "
         "each column (canonical units), a correct implementation reproduces the stated risk. "
         "calcbuilder re-scores every vector whenever it opens the file and refuses the file if "
-        "any risk differs by more than 1e-9.", st.body)]
-    for start in range(0, len(calc.test_vectors), PER_BLOCK):
-        stop = min(len(calc.test_vectors), start + PER_BLOCK)
-        out += [_block(ctx, start, stop, scores), Spacer(1, 6)]
+        "any risk differs by more than 1e-9.", st.body)
+    out: list[Flowable] = []
+    total = len(calc.test_vectors)
+    per = -(-total // -(-total // PER_BLOCK))  # blocks of near-equal size
+    for start in range(0, total, per):
+        stop = min(total, start + per)
+        block = _block(ctx, start, stop, scores, per)
+        out += [KeepTogether([intro, block] if start == 0 else [block]), Spacer(1, 6)]
     if scores is None:
         out.append(Paragraph("The vectors could not be re-scored for this report.", st.grey))
     return out

@@ -34,6 +34,7 @@ from reportlab.platypus import (
     BaseDocTemplate,
     Flowable,
     Frame,
+    KeepTogether,
     PageBreak,
     PageTemplate,
     Spacer,
@@ -130,8 +131,9 @@ def _story(ctx: Context, sections: list[tuple[str, Story]]) -> list[Flowable]:
     out = title_story(ctx)
     out += [Spacer(1, 4), heading("", "Contents", st.h2, level=9), toc, PageBreak()]
     for number, (title, build) in enumerate(sections, start=1):
-        out.append(heading(f"{number}.", title, st.h1))
-        out += build(ctx)
+        body = build(ctx)
+        out.append(KeepTogether([heading(f"{number}.", title, st.h1), *body[:1]]))
+        out += body[1:]
     return out
 
 
