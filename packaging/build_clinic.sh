@@ -1,0 +1,109 @@
+#!/usr/bin/env bash
+# Build the standalone clinic form, dist/calcbuilder-clinic/ (PyInstaller one-folder).
+#
+# Usage: packaging/build_clinic.sh [--fresh] [--no-selftest] [FILE.calc.json ...] [KEY.pub ...]
+#
+#   FILE.calc.json  calculator files to put beside the program (it opens them at start)
+#   KEY.pub         public keys to put in trusted-keys/ beside the program
+#   --fresh         delete the build venv and PyInstaller's cache first
+#   --no-selftest   do not run the finished program's --selftest at the end
+#
+# Steps: (1) a lean venv, build/clinic-venv, holding only what the clinic form
+# needs plus PyInstaller; (2) PyInstaller with packaging/clinic.spec; (3) the
+# SOUP list (SOUP.txt, soup.json, licences/) written into the build folder by
+# packaging/soup.py, which fails the build if pandas/scipy/statsmodels/
+# scikit-learn were collected; (4) calculators and keys copied beside the
+# program and checked with its --check; (5) the program's --selftest.
+# Everything it writes is under build/ and dist/ (both git-ignored).
+set -euo pipefail
+cd "$(dirname "$0")/.."
+ROOT=$PWD
+VENV=$ROOT/build/clinic-venv
+WORK=$ROOT/build/clinic-work
+SRC=$ROOT/build/clinic-src
+DIST=$ROOT/dist/calcbuilder-clinic
+PYTHON=${PYTHON:-python3}
+t0=$SECONDS
+
+fresh=0 selftest=1 calcs=() keys=()
+for arg in "$@"; do
+  case $arg in
+    --fresh) fresh=1 ;;
+    --no-selftest) selftest=0 ;;
+    -h|--help) sed -n '2,17p' "$0"; exit 0 ;;
+    *.json) calcs+=("$arg") ;;
+    *.pub) keys+=("$arg") ;;
+    *) echo "build_clinic: unknown argument '$arg' (see --help)" >&2; exit 2 ;;
+  esac
+done
+for f in "${calcs[@]}" "${keys[@]}"; do
+  [ -f "$f" ] || { echo "build_clinic: no such file: $f" >&2; exit 2; }
+done
+
+# PyInstaller needs objdump (binutils) to find shared libraries on Linux.
+if ! command -v objdump >/dev/null 2>&1; then
+  if [ "$(id -u)" = "0" ] && command -v apt-get >/dev/null 2>&1; then
+    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends binutils >/dev/null
+  else
+    echo "build_clinic: objdump not found; install binutils" >&2; exit 1
+  fi
+fi
+
+# --- 1. the lean build venv ---------------------------------------------------------------
+if [ "$fresh" = 1 ]; then rm -rf "$VENV" "$WORK"; fi
+[ -x "$VENV/bin/python" ] || "$PYTHON" -m venv "$VENV"
+PIP=("$VENV/bin/python" -m pip install -q --disable-pip-version-check)
+quiet_pip() {  # the image's global pip config prints one harmless warning per package
+  "${PIP[@]}" "$@" 2>&1 | { grep -v "^WARNING: Location" || true; }
+}
+# Same versions as the developer venv the test suite ran in, when there is one.
+constraints=()
+if [ -x "$ROOT/.venv/bin/python" ]; then
+  "$ROOT/.venv/bin/python" -m pip list --format=freeze --exclude-editable \
+    --disable-pip-version-check >"$ROOT/build/clinic-constraints.txt"
+  constraints=(-c "$ROOT/build/clinic-constraints.txt")
+fi
+# Only what the clinic form imports (pyproject's full list would bring pandas,
+# scipy and statsmodels). PySide6-Pdf: printing to a printer (QtPdf); pin it with
+# Essentials, its 0.0.1 placeholder must never be picked.
+quiet_pip "${constraints[@]}" numpy matplotlib PySide6-Essentials "PySide6-Pdf>=6.8" \
+  reportlab cryptography platformdirs rfc8785 jsonschema threadpoolctl pyinstaller
+# calcbuilder itself, without its dependencies, from a clean copy of the sources
+# (building in the working tree would leave build/lib and egg-info behind).
+rm -rf "$SRC" && mkdir -p "$SRC"
+cp pyproject.toml README.md "$SRC/"
+tar --exclude=__pycache__ -cf - calcbuilder | tar -xf - -C "$SRC"
+quiet_pip --no-deps --force-reinstall "$SRC"
+echo "[build_clinic] venv ready after $((SECONDS - t0)) s"
+
+# --- 2. PyInstaller -----------------------------------------------------------------------
+t1=$SECONDS
+"$VENV/bin/pyinstaller" --noconfirm --log-level WARN --distpath "$ROOT/dist" \
+  --workpath "$WORK" packaging/clinic.spec
+echo "[build_clinic] PyInstaller done in $((SECONDS - t1)) s"
+
+# --- 3. SOUP list (fails on forbidden libraries) -------------------------------------------
+"$VENV/bin/python" packaging/soup.py --collected "$WORK/clinic/collected.json" --out "$DIST"
+
+# --- 4. calculators and trusted keys beside the program ------------------------------------
+if [ "${#keys[@]}" -gt 0 ]; then
+  mkdir -p "$DIST/trusted-keys"
+  cp -- "${keys[@]}" "$DIST/trusted-keys/"
+fi
+if [ "${#calcs[@]}" -gt 0 ]; then
+  for f in "${calcs[@]}"; do  # the program opens the *.calc.json files beside it
+    base=$(basename "$f"); base=${base%.json}; base=${base%.calc}
+    cp -- "$f" "$DIST/$base.calc.json"
+  done
+fi
+if [ "${#calcs[@]}" -gt 0 ] || [ "${#keys[@]}" -gt 0 ]; then
+  "$DIST/calcbuilder-clinic" --check
+fi
+
+# --- 5. self-test ---------------------------------------------------------------------------
+if [ "$selftest" = 1 ]; then
+  # offscreen Qt when there is no display (CI, servers)
+  if [ -z "${DISPLAY:-}${WAYLAND_DISPLAY:-}" ]; then export QT_QPA_PLATFORM=offscreen; fi
+  "$DIST/calcbuilder-clinic" --selftest
+fi
+echo "[build_clinic] $DIST: $(du -sh "$DIST" | cut -f1); total $((SECONDS - t0)) s"

@@ -1,0 +1,302 @@
+"""Write the SOUP list (software of unknown provenance) of the standalone clinic build.
+
+Run by ``packaging/build_clinic.sh`` with the BUILD venv's Python, after
+PyInstaller::
+
+    build/clinic-venv/bin/python packaging/soup.py \\
+        --collected build/clinic-work/clinic/collected.json --out dist/calcbuilder-clinic
+
+Every file PyInstaller collected (``collected.json``, written by ``clinic.spec``)
+is traced to its owner, so the list holds exactly what is inside the build:
+
+* a Python distribution of the build venv (``importlib.metadata``: name,
+  version, licence; purpose from :data:`PURPOSES` or "needed by ...");
+* the Python runtime itself (standard library, ``libpython``);
+* a system library copied from the build machine (Debian package via ``dpkg -S``).
+
+Distributions installed in the venv but not collected (PyInstaller's own tools,
+pip) are listed separately as not shipped. Writes ``SOUP.txt``, ``soup.json``
+and ``licences/`` (the licence files of each component) into ``--out``.
+Exit 1, after writing, when a forbidden library or authoring module was collected.
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import json
+import platform
+import re
+import shutil
+import subprocess
+import sys
+from dataclasses import asdict, dataclass, field
+from importlib import metadata
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+OURS = "calcbuilder"
+FORBIDDEN = ("pandas", "scipy", "statsmodels", "scikit-learn", "pytest", "patsy", "formulaic")
+FORBIDDEN_MODULES = ("calcbuilder.evidence", "calcbuilder.demo", "calcbuilder.cli")
+PURPOSES = {
+    "numpy": "array arithmetic: scoring, intervals, input checks",
+    "matplotlib": "figures on the form and the risk sheet (icon array, curves)",
+    "pyside6-essentials": "Qt for Python: the form window, dialogs, printing (Qt 6, LGPL)",
+    "pyside6-pdf": "QtPdf: draws the risk-sheet PDF on a printer",
+    "shiboken6": "runtime of the Qt for Python bindings",
+    "reportlab": "makes the risk-sheet PDF",
+    "cryptography": "verifies Ed25519 signatures of calculator files (OpenSSL inside)",
+    "platformdirs": "finds the user's settings folder (trusted keys)",
+    "rfc8785": "canonical JSON (RFC 8785) for fingerprints and signatures",
+    "jsonschema": "checks calculator files against the published schema",
+    "threadpoolctl": "limits numerical library threads (statistics core)",
+    "pillow": "images for matplotlib and reportlab",
+    "pyinstaller": "bootloader and start-up code of the frozen program",
+}
+LICENCE_FILE = re.compile(r"^(licen[cs]e|copying|notice|authors)", re.IGNORECASE)
+
+
+@dataclass
+class Component:
+    """One piece of third-party software inside the build."""
+
+    name: str
+    version: str
+    licence: str
+    purpose: str
+    kind: str  # "python distribution", "python runtime" or "system library"
+    files: int = 0
+    required_by: list[str] = field(default_factory=list)
+    licence_files: list[str] = field(default_factory=list)
+
+
+def norm(name: str) -> str:
+    """PEP 503 normalised distribution name."""
+    return re.sub(r"[-_.]+", "-", name).lower()
+
+
+def licence_of(dist: metadata.Distribution) -> str:
+    """SPDX expression, else a one-line License field, else the licence classifiers."""
+    meta = dist.metadata
+    expression = _field(meta, "License-Expression")
+    if expression:
+        return expression
+    text = _field(meta, "License")
+    if text and "\n" not in text and len(text) <= 80:
+        return text
+    classifiers = [c.split("::")[-1].strip() for c in meta.get_all("Classifier") or []
+                   if c.startswith("License ::")]
+    if classifiers:
+        return " / ".join(dict.fromkeys(classifiers))
+    return "see the licence files" if text else "not stated (see the licence files)"
+
+
+def _field(meta: metadata.PackageMetadata, key: str) -> str:
+    """The first value of a metadata field, stripped ('' when absent)."""
+    values = meta.get_all(key) or []
+    return str(values[0]).strip() if values else ""
+
+
+def requirements(dist: metadata.Distribution) -> set[str]:
+    """Normalised names of what a distribution needs (extras left out)."""
+    out = set()
+    for line in dist.requires or []:
+        if "extra ==" in line:
+            continue
+        match = re.match(r"[A-Za-z0-9][A-Za-z0-9._-]*", line)
+        if match:
+            out.add(norm(match.group(0)))
+    return out
+
+
+def owners(site_dirs: list[str]) -> dict[Path, metadata.Distribution]:
+    """Every installed file of the build venv, resolved, mapped to its distribution."""
+    found: dict[Path, metadata.Distribution] = {}
+    for dist in metadata.distributions(path=site_dirs):
+        for name in dist.files or []:
+            found[Path(str(dist.locate_file(name))).resolve()] = dist
+    return found
+
+
+def collected_sources(manifest: dict[str, list[list[str]]]) -> list[tuple[str, Path]]:
+    """(name inside the build, source path) of everything PyInstaller collected."""
+    out = []
+    for section in ("pure", "binaries", "datas", "scripts"):
+        for name, src in manifest.get(section, []):
+            if src:
+                out.append((name, Path(src)))
+    return out
+
+
+def debian_packages(paths: list[Path]) -> dict[Path, tuple[str, str]]:
+    """``dpkg -S`` owner and version of system files (empty where dpkg is missing)."""
+    if not paths or shutil.which("dpkg") is None:
+        return {}
+    found: dict[Path, tuple[str, str]] = {}
+    for path in paths:
+        alternatives = {str(path), str(path.resolve())}
+        for text in list(alternatives):  # merged /usr: dpkg may know either spelling
+            alternatives.add(text[4:] if text.startswith("/usr/lib/") else "/usr" + text)
+        for candidate in sorted(alternatives):
+            done = subprocess.run(["dpkg", "-S", candidate], capture_output=True, text=True,
+                                  check=False)
+            if done.returncode == 0 and done.stdout:
+                package = done.stdout.split(":")[0].strip()
+                version = subprocess.run(["dpkg-query", "-W", "-f=${Version}", package],
+                                         capture_output=True, text=True, check=False).stdout
+                found[path] = (package, version.strip() or "unknown")
+                break
+    return found
+
+
+def _system_libraries(system: list[Path], components: dict[str, Component]) -> None:
+    """Add the system libraries PyInstaller copied from the build machine."""
+    packages = debian_packages(system)
+    for package, version in packages.values():
+        comp = components.setdefault(f"deb:{package}", Component(
+            package, version, f"see /usr/share/doc/{package}/copyright",
+            "shared library used by Qt or Python extension modules", "system library"))
+        comp.files += 1
+    for src in (s for s in system if s not in packages):
+        components[f"file:{src}"] = Component(src.name, "unknown", "unknown (origin not found)",
+                                              "shared library from the build machine",
+                                              "system library", 1)
+
+
+def trace(sources: list[tuple[str, Path]], site_dirs: list[str]) -> dict[str, Component]:
+    """Group collected files by owner into components (our own package left out)."""
+    owned = owners(site_dirs)
+    base = Path(sys.base_prefix).resolve()
+    components: dict[str, Component] = {}
+    dists: dict[str, metadata.Distribution] = {}
+    system: list[Path] = []
+    for _name, src in sources:
+        dist = owned.get(src.resolve())
+        if dist is not None:
+            key = norm(dist.metadata["Name"])
+            dists[key] = dist
+            if key not in components:
+                components[key] = Component(
+                    dist.metadata["Name"], dist.version, licence_of(dist),
+                    PURPOSES.get(key, ""), "python distribution")
+            components[key].files += 1
+        elif src.resolve().is_relative_to(base):
+            runtime = components.setdefault("python", Component(
+                "Python", platform.python_version(), "PSF-2.0",
+                "the Python interpreter and standard library", "python runtime"))
+            runtime.files += 1
+        elif src.resolve().is_relative_to(ROOT):
+            continue  # our own entry script and the self-test fixtures
+        else:
+            system.append(src)
+    _system_libraries(system, components)
+    for key, dist in dists.items():
+        for needed in requirements(dist):
+            if needed in components and needed != key:
+                components[needed].required_by.append(dist.metadata["Name"])
+    components.pop(OURS, None)
+    for comp in components.values():
+        comp.required_by.sort(key=str.lower)
+        if not comp.purpose:
+            comp.purpose = ("needed by " + ", ".join(comp.required_by)) if comp.required_by \
+                else "collected by PyInstaller"
+    return components
+
+
+def copy_licences(components: dict[str, Component], site_dirs: list[str], out: Path) -> None:
+    """Copy each component's licence files into ``out/licences/<name>/``."""
+    target = out / "licences"
+    shutil.rmtree(target, ignore_errors=True)
+    wanted = {norm(c.name): c for c in components.values() if c.kind == "python distribution"}
+    for dist in metadata.distributions(path=site_dirs):
+        comp = wanted.get(norm(dist.metadata["Name"]))
+        if comp is None:
+            continue
+        for name in dist.files or []:
+            path = Path(str(dist.locate_file(name)))
+            in_info = any(part.endswith(".dist-info") for part in Path(name).parts)
+            if in_info and LICENCE_FILE.match(path.name) and path.is_file():
+                dest = target / f"{comp.name}-{comp.version}" / path.name
+                _copy(path, dest, comp, out)
+    for comp in components.values():
+        if comp.kind == "python runtime":
+            source = Path(sys.base_prefix) / "lib" / f"python{sys.version_info[0]}." \
+                f"{sys.version_info[1]}" / "LICENSE.txt"
+            _copy(source, target / f"Python-{comp.version}" / "LICENSE.txt", comp, out)
+        elif comp.kind == "system library" and comp.licence.startswith("see /"):
+            source = Path(comp.licence.removeprefix("see "))
+            _copy(source, target / f"debian-{comp.name}" / "copyright", comp, out)
+
+
+def _copy(source: Path, dest: Path, comp: Component, out: Path) -> None:
+    if source.is_file():
+        dest.parent.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(source, dest)
+        comp.licence_files.append(dest.relative_to(out).as_posix())
+
+
+def build_info() -> dict[str, object]:
+    """What was built, from which sources, with which tools."""
+    def git(*args: str) -> str:
+        done = subprocess.run(["git", *args], cwd=ROOT, capture_output=True, text=True,
+                              check=False)
+        return done.stdout.strip() if done.returncode == 0 else "unknown"
+
+    return {"program": "calcbuilder-clinic", "calcbuilder": metadata.version(OURS),
+            "source_commit": git("rev-parse", "HEAD"),
+            "source_changed_since_commit": bool(git("status", "--porcelain", "--",
+                                                    "calcbuilder", "packaging")),
+            "built_at": dt.datetime.now(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
+            "python": platform.python_version(), "platform": platform.platform(),
+            "pyinstaller": metadata.version("pyinstaller")}
+
+
+def write(out: Path, info: dict[str, object], components: list[Component],
+          not_shipped: list[str], problems: list[str]) -> None:
+    """``soup.json`` and ``SOUP.txt`` in ``out``."""
+    (out / "soup.json").write_text(json.dumps(
+        {"build": info, "components": [asdict(c) for c in components],
+         "installed_in_build_venv_but_not_shipped": not_shipped, "problems": problems},
+        indent=1, ensure_ascii=False) + "\n", "utf-8")
+    lines = ["SOUP list: third-party software inside this build of calcbuilder-clinic", ""]
+    lines += [f"{key:28} {value}" for key, value in info.items()] + [""]
+    header = f"{'name':26} {'version':16} {'licence':34} purpose"
+    lines += [header, "-" * len(header)]
+    for c in components:
+        lines.append(f"{c.name:26} {c.version:16} {c.licence:34} {c.purpose}")
+    lines += ["", "Kinds: " + "; ".join(f"{c.name} = {c.kind}" for c in components
+                                         if c.kind != "python distribution"),
+              "", "Licence texts: licences/ beside this file.",
+              "Installed in the build venv but not shipped: " + ", ".join(not_shipped)]
+    lines += [f"PROBLEM: {p}" for p in problems]
+    (out / "SOUP.txt").write_text("\n".join(lines) + "\n", "utf-8")
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description="Write SOUP.txt and soup.json for the build.")
+    parser.add_argument("--collected", type=Path, required=True,
+                        help="collected.json written by packaging/clinic.spec")
+    parser.add_argument("--out", type=Path, required=True, help="the build folder")
+    args = parser.parse_args(argv)
+    manifest = json.loads(args.collected.read_text("utf-8"))
+    site_dirs = [p for p in sys.path if p.endswith("site-packages")]
+    components = trace(collected_sources(manifest), site_dirs)
+    copy_licences(components, site_dirs, args.out)
+    ordered = sorted(components.values(), key=lambda c: (c.kind != "python distribution",
+                                                         c.name.lower()))
+    shipped = {norm(c.name) for c in ordered} | {OURS}
+    not_shipped = sorted(d.metadata["Name"] for d in metadata.distributions(path=site_dirs)
+                         if norm(d.metadata["Name"]) not in shipped)
+    problems = [f"forbidden library collected: {c.name}" for c in ordered
+                if norm(c.name) in FORBIDDEN]
+    problems += [f"authoring module collected: {name}" for name, _src in manifest["pure"]
+                 if name.startswith(FORBIDDEN_MODULES)]
+    write(args.out, build_info(), ordered, not_shipped, problems)
+    print(f"[soup] {len(ordered)} components written to {args.out / 'SOUP.txt'}")
+    for problem in problems:
+        print(f"[soup] ERROR: {problem}", file=sys.stderr)
+    return 1 if problems else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
