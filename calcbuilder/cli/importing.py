@@ -88,10 +88,11 @@ SOURCES: list[Callable[[argparse._SubParsersAction], None]] = [
 
 def register(sub: argparse._SubParsersAction) -> None:
     """Register the ``import`` command group and every source in :data:`SOURCES`."""
-    parser = sub.add_parser("import", help="build a calculator file from an existing model",
-                            description="Build a calculator file from an existing model: a "
+    parser = sub.add_parser("import", help="bring in an existing model or its evidence",
+                            description="Build a calculator file from an existing model (a "
                                         "coefficient table or a PMML document, with an inputs "
-                                        "description (TOML).")
+                                        "description in TOML), or bring in other existing "
+                                        "work; one SOURCE per kind.")
     actions = parser.add_subparsers(dest="import_source", metavar="SOURCE")
     actions.required = True
     for add in SOURCES:
