@@ -25,7 +25,7 @@ import sys
 from collections.abc import Callable
 from pathlib import Path
 
-from PySide6.QtCore import Qt
+from PySide6.QtCore import Qt, QTimer
 from PySide6.QtGui import QAction, QDragEnterEvent, QDropEvent, QKeySequence
 from PySide6.QtWidgets import (
     QApplication,
@@ -45,7 +45,6 @@ from ..clinic.threshold import Threshold
 from ..errors import CalcbuilderError
 from . import actions
 from .header import HeaderInfo, HeaderStrip
-from .look import STYLE_SHEET
 from .panels import FormBody, InputView, welcome_label
 
 __all__ = ["ClinicWindow", "dropped_calculator", "make_app", "run_form"]
@@ -54,13 +53,12 @@ OPEN_FILTER = "Calculator files (*.calc.json);;JSON files (*.json);;All files (*
 
 
 def make_app(argv: list[str] | None = None) -> QApplication:
-    """The running QApplication, created (with our style sheet) when there is none."""
+    """The running QApplication, created when there is none."""
     app = QApplication.instance()
     if app is None:
         app = QApplication(argv if argv is not None else sys.argv[:1])
         app.setApplicationName("calcbuilder clinic form")
     assert isinstance(app, QApplication)
-    app.setStyleSheet(STYLE_SHEET)
     return app
 
 
@@ -113,6 +111,10 @@ class ClinicWindow(QMainWindow):
         box.addWidget(self.header)
         box.addWidget(self.pages, 1)
         self.setCentralWidget(central)
+        self._focus_timer = QTimer(self)
+        self._focus_timer.setSingleShot(True)
+        self._focus_timer.setInterval(0)
+        self._focus_timer.timeout.connect(self._focus_first_input)
         self._menus()
 
     # --- menus ------------------------------------------------------------------------
@@ -204,7 +206,10 @@ class ClinicWindow(QMainWindow):
         self.pages.setCurrentWidget(body)
         self._enable_actions()
         self.refresh()
-        first = body.inputs.first_widget()
+        self._focus_timer.start()  # focus the first input once the new page is on screen
+
+    def _focus_first_input(self) -> None:
+        first = self.body.inputs.first_widget() if self.body is not None else None
         if first is not None:
             first.setFocus(Qt.FocusReason.OtherFocusReason)
 

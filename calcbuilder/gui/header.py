@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import QFrame, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
-from .look import CAUTION_LINE, SYMBOL
+from .look import CAUTION_LINE, SYMBOL, box, set_state, sized
 
 __all__ = ["HeaderInfo", "HeaderStrip"]
 
@@ -85,6 +85,7 @@ class HeaderStrip(QFrame):
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("header")
+        box(self, "strip")
         self.title = _label("title", selectable=True)
         self.version = _label("version")
         self.synthetic = _label("syntheticMarker")
@@ -96,8 +97,22 @@ class HeaderStrip(QFrame):
         self.caution.setText(f"{SYMBOL['info']}  {CAUTION_LINE}")
         self.banner = _label("trustBanner", wrap=True)
         self.refusal = _label("refusal", wrap=True, selectable=True)
+        self._style()
         self._layout_strip()
         self.show_empty()
+
+    def _style(self) -> None:
+        sized(self.title, 13, bold=True)
+        for label in (self.version, self.signature, self.review_by, self.fingerprint):
+            set_state(label, "note")
+        set_state(self.intended_use, "note")
+        set_state(self.caution, "ok")
+        font = self.caution.font()
+        font.setItalic(True)
+        self.caution.setFont(font)
+        box(self.synthetic, "marker")
+        box(self.banner, "banner")
+        box(self.refusal, "refusal")
 
     def _layout_strip(self) -> None:
         top = QHBoxLayout()

@@ -23,7 +23,6 @@ from PySide6.QtGui import QKeyEvent
 from PySide6.QtWidgets import (
     QComboBox,
     QGridLayout,
-    QGroupBox,
     QLabel,
     QLineEdit,
     QVBoxLayout,
@@ -33,7 +32,7 @@ from PySide6.QtWidgets import (
 from ..calc.inputs import InputSpec
 from ..calc.messages import Message
 from ..calc.numbers import format_number
-from .look import SYMBOL, set_state
+from .look import SYMBOL, heading, set_state
 
 __all__ = ["NOT_ANSWERED", "InputView", "InputsPanel"]
 
@@ -133,13 +132,15 @@ class InputsPanel(QWidget):
         groups = _grouped(specs)
         ungrouped = "Patient values" if len(groups) == 1 else "Other values"
         for group, members in groups:
-            box = QGroupBox(group or ungrouped)
-            grid = QGridLayout(box)
+            layout.addWidget(heading(group or ungrouped))
+            block = QWidget()
+            grid = QGridLayout(block)
+            grid.setContentsMargins(8, 0, 0, 4)
             grid.setColumnStretch(1, 1)
             grid.setHorizontalSpacing(8)
             for spec in members:
                 self._add_row(grid, spec)
-            layout.addWidget(box)
+            layout.addWidget(block)
         layout.addStretch(1)
         self._align_labels()
         self._chain_focus()

@@ -23,6 +23,7 @@ from PySide6.QtWidgets import (
 from ..clinic.session import ClinicSession, PatientResult
 from .evidence_panel import EvidencePanel
 from .inputs_panel import InputsPanel, InputView
+from .look import set_state, sized
 from .risk_panel import RiskPanel
 from .threshold_panel import ThresholdPanel
 from .why_panel import WhyPanel
@@ -37,7 +38,8 @@ def welcome_label() -> QLabel:
     label.setObjectName("welcome")
     label.setAlignment(Qt.AlignmentFlag.AlignCenter)
     label.setWordWrap(True)
-    label.setStyleSheet("font-size: 15px; color: #4d5b66;")
+    set_state(label, "note")
+    sized(label, 12)
     return label
 
 
@@ -50,13 +52,20 @@ class _FitScrollArea(QScrollArea):
     on every resize and layout change, so figures keep their shape and the area scrolls.
     """
 
+    def __init__(self) -> None:
+        super().__init__()
+        self._refit = QTimer(self)  # a child: it dies with the area, never fires after
+        self._refit.setSingleShot(True)
+        self._refit.setInterval(0)
+        self._refit.timeout.connect(self.fit)
+
     def resizeEvent(self, event: QResizeEvent) -> None:  # noqa: N802 (Qt override)
         super().resizeEvent(event)
         self.fit()
 
     def eventFilter(self, watched: QObject, event: QEvent) -> bool:  # noqa: N802 (Qt override)
         if watched is self.widget() and event.type() == QEvent.Type.LayoutRequest:
-            QTimer.singleShot(0, self.fit)
+            self._refit.start()
         return super().eventFilter(watched, event)
 
     def fit(self) -> None:

@@ -20,7 +20,7 @@ from ..calc.evidence_sets import EvidenceSet
 from ..clinic.session import ClinicSession, PatientResult
 from ..clinic.threshold import format_percent
 from .figures import FigureBox
-from .look import SYMBOL, state_label
+from .look import SYMBOL, box, sized, state_label
 
 __all__ = ["RiskPanel", "status_text"]
 
@@ -72,10 +72,11 @@ class RiskPanel(QWidget):
         self._labels = {spec.id: spec.label for spec in session.inputs}
         self._outcome = f"{about.outcome} {about.horizon}".strip()
         self.question = state_label(f"Estimated risk of {self._outcome}", "ok", "riskQuestion")
-        self.question.setStyleSheet("font-weight: bold;")
+        sized(self.question, 10.5, bold=True)
         self.risk = QLabel(NO_RISK)
         self.risk.setObjectName("risk")
         self.risk.setAccessibleName("Estimated risk")
+        sized(self.risk, 24, bold=True)
         self.risk.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         self.interval = state_label("", "ok", "riskInterval")
         self.frequency = state_label("", "ok", "frequency")
@@ -83,13 +84,15 @@ class RiskPanel(QWidget):
         self.extrapolation = state_label("", "warning", "riskExtrapolation")
         self.position = state_label("", "ok", "cohortPosition")
         self.cautions = state_label(self._cautions_text(), "ok", "cautions")
+        box(self.extrapolation, "caution")
+        box(self.cautions, "plain")
         self.icons = FigureBox("", name="iconArray", min_height=250, max_width=300)
         self.cohort = FigureBox("", name="riskPosition", min_height=170)
-        box = QVBoxLayout(self)
+        column = QVBoxLayout(self)
         for widget in (self.question, self.risk, self.interval, self.frequency, self.status,
                        self.extrapolation, self.cautions, self.icons, self.position, self.cohort):
-            box.addWidget(widget)
-        box.addStretch(1)
+            column.addWidget(widget)
+        column.addStretch(1)
 
     def _cautions_text(self) -> str:
         lines = [f"{SYMBOL['info']} {c}" for c in self._session.calculator.cautions]

@@ -26,7 +26,7 @@ from ..clinic.session import ClinicSession
 from ..clinic.threshold import Threshold, format_percent
 from ..errors import CalcbuilderError
 from .figures import FigureBox
-from .look import SYMBOL, heading, set_state, state_label
+from .look import SYMBOL, box, heading, set_state, state_label
 
 __all__ = ["ThresholdPanel", "parse_percent", "parse_ratio", "parse_willing"]
 
@@ -76,6 +76,7 @@ class ThresholdPanel(QWidget):
         self.benefit = state_label("", "ok", "netBenefit")
         self.source = state_label("", "note", "evidenceSource")
         self.warnings = state_label("", "ok", "thresholdWarnings")
+        box(self.warnings, "caution")
         self.curve = FigureBox("The decision curve appears here.", name="decisionCurve",
                                min_height=330)
         self._lay_out()
