@@ -135,10 +135,19 @@ def parse_evidence(raw: list[Mapping[str, Any]], path: str,
     )
 
 
-def most_trustworthy(sets: tuple[EvidenceSet, ...], needs: str = "decision_curve"
-                     ) -> EvidenceSet | None:
-    """The most trustworthy evidence set holding ``needs`` (external first; latest wins ties)."""
-    for kind in TRUST_ORDER:
+def most_trustworthy(sets: tuple[EvidenceSet, ...], needs: str = "decision_curve", *,
+                     recalibrated: bool = False) -> EvidenceSet | None:
+    """The most trustworthy evidence set holding ``needs`` (latest wins ties).
+
+    Order: external, recalibrated, bootstrap-corrected, apparent, imported. When
+    the model carries a recalibration (``recalibrated=True``), evidence of kind
+    ``recalibrated`` describes the model as it now is and comes first: an
+    external set made before the update describes the old model.
+    """
+    order = TRUST_ORDER
+    if recalibrated:
+        order = ("recalibrated", *(k for k in TRUST_ORDER if k != "recalibrated"))
+    for kind in order:
         found = [e for e in sets if e.kind == kind and needs in e.raw]
         if found:
             return found[-1]

@@ -43,8 +43,8 @@ __all__ = ["CheckedValue", "Status", "Value", "check_value", "is_missing"]
 
 Value = float | bool | str | None
 Status = Literal["ok", "warning", "missing", "error"]
-_YES = frozenset({"yes", "y", "true", "1"})
-_NO = frozenset({"no", "n", "false", "0"})
+_YES = frozenset({"yes", "y", "true", "1", "1.0"})  # "1.0": CSV files written by pandas
+_NO = frozenset({"no", "n", "false", "0", "0.0"})
 _NUMBER_TYPES = (int, float, np.integer, np.floating)
 _BOOL_TYPES = (bool, np.bool_)
 

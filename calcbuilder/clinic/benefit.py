@@ -208,7 +208,8 @@ def net_benefit_at(calc: Calculator, threshold: Threshold) -> NetBenefit:
         Numbers, plain-word statements, warnings and the evidence source.
     """
     warnings = [w for w in (_range_warning(calc, threshold),) if w]
-    evidence = most_trustworthy(calc.evidence, needs="decision_curve")
+    evidence = most_trustworthy(calc.evidence, needs="decision_curve",
+                                recalibrated=calc.model.recalibration is not None)
     if evidence is None:
         warnings.append("Not covered by the evidence: this calculator holds no decision curve, "
                         "so the net benefit of deciding by the model is unknown.")

@@ -83,7 +83,8 @@ def provenance_lines(calc: Calculator, evidence: EvidenceSet | None) -> list[str
         size = f" ({recal.n:,} people)" if recal.n else ""
         lines.append(f"Recalibrated ({recal.method}) on {recal.dataset or 'a new population'}"
                      f"{size}.")
-    shown = evidence or most_trustworthy(calc.evidence, needs="metrics")
+    shown = evidence or most_trustworthy(
+        calc.evidence, needs="metrics", recalibrated=calc.model.recalibration is not None)
     if shown is None:
         lines.append("This calculator file holds no performance evidence.")
         return lines
