@@ -55,7 +55,9 @@ def _read(path: Path) -> Any:
     except FileNotFoundError:
         raise CalcbuilderError(f"patients file {path} does not exist") from None
     except UnicodeDecodeError:
-        raise CalcbuilderError(f"patients file {path} is not UTF-8 text; save it as UTF-8") from None
+        raise CalcbuilderError(
+            f"patients file {path} is not UTF-8 text; save it as UTF-8"
+        ) from None
     except (pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
         raise CalcbuilderError(f"patients file {path} is not a readable CSV: {exc}") from None
 
@@ -116,10 +118,10 @@ def score_frame(calc: Calculator, frame: Any, *, decimal_comma: bool = False) ->
         if spec.kind == "number":
             values, bad = _numeric(text, decimal_comma)
             columns[spec.id] = values
-            rows = np.flatnonzero(bad)
-            for row, msg in zip(rows, _unreadable_messages(spec.label, text.to_numpy()[rows],
-                                                           decimal_comma), strict=True):
-                parse_errors.setdefault(int(row), []).append(msg)
+            bad_rows = np.flatnonzero(bad)
+            texts = _unreadable_messages(spec.label, text.to_numpy()[bad_rows], decimal_comma)
+            for bad_row, msg in zip(bad_rows.tolist(), texts, strict=True):
+                parse_errors.setdefault(bad_row, []).append(msg)
         else:
             columns[spec.id] = text.to_numpy(dtype=object)
     checked = check_columns(calc.inputs, columns, units)
@@ -132,11 +134,12 @@ def score_frame(calc: Calculator, frame: Any, *, decimal_comma: bool = False) ->
         result = score(calc.model, {k: v[ok] for k, v in checked.values.items()})
         risk[ok], low[ok], high[ok] = result.risk, result.low, result.high
     notes = [""] * n
-    for row, msgs in checked.messages.items():
-        notes[row] = " ".join(m.text for m in msgs if not (row in parse_errors
-                                                           and m.code == "missing"))
-    for row, msgs in parse_errors.items():
-        notes[row] = " ".join([*msgs, notes[row]]).strip()
+    for row, found in checked.messages.items():
+        # an unreadable number shows as missing to check_columns: say what was wrong instead
+        kept = [m.text for m in found if not (row in parse_errors and m.code == "missing")]
+        notes[row] = " ".join(kept)
+    for row, texts in parse_errors.items():
+        notes[row] = " ".join([*texts, notes[row]]).strip()
     out = frame.copy()
     out["risk"], out["risk_low"], out["risk_high"] = risk, low, high
     out["warnings"] = notes

@@ -8,6 +8,7 @@ numbers computed elsewhere and imported cannot contradict themselves.
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
@@ -15,7 +16,7 @@ from typing import Any
 
 from .problems import Problems, join
 
-__all__ = ["TRUST_ORDER", "EvidenceSet", "parse_evidence", "most_trustworthy"]
+__all__ = ["TRUST_ORDER", "EvidenceSet", "most_trustworthy", "parse_evidence"]
 
 # Which evidence the clinic form prefers for net benefit at a threshold.
 TRUST_ORDER = ("external", "recalibrated", "bootstrap", "apparent", "imported")
@@ -77,7 +78,7 @@ def _check_decision_curve(dc: Mapping[str, Any], prevalence: float, path: str,
     if any(x is None or not 0 < x < 1 for x in t):
         problems.add(join(path, "thresholds"), "must all lie strictly inside (0, 1)")
         return
-    if any(a >= b for a, b in zip(t, t[1:], strict=False)):
+    if any(a >= b for a, b in itertools.pairwise(t)):
         problems.add(join(path, "thresholds"), "must be strictly increasing")
     for i, (ti, nb_all) in enumerate(zip(t, dc["treat_all"], strict=False)):
         expected = prevalence - (1 - prevalence) * ti / (1 - ti)
@@ -144,7 +145,7 @@ def most_trustworthy(sets: tuple[EvidenceSet, ...], needs: str = "decision_curve
     ``recalibrated`` describes the model as it now is and comes first: an
     external set made before the update describes the old model.
     """
-    order = TRUST_ORDER
+    order: tuple[str, ...] = TRUST_ORDER
     if recalibrated:
         order = ("recalibrated", *(k for k in TRUST_ORDER if k != "recalibrated"))
     for kind in order:

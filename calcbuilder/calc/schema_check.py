@@ -55,7 +55,8 @@ def _message(error: Any) -> str:
         return error.message.replace("is a required property", "is required")
     if error.validator == "type":
         return f"must be of type {error.validator_value}; got {type(error.instance).__name__}"
-    if error.validator == "pattern" and error.absolute_path and error.absolute_path[-1] == "version":
+    at_version = bool(error.absolute_path) and error.absolute_path[-1] == "version"
+    if error.validator == "pattern" and at_version:
         return f"must be a semantic version like 1.2.0; got {error.instance!r}"
     text: str = error.message
     return text if len(text) < 300 else text[:300] + "..."

@@ -8,6 +8,7 @@ schema check and adds every semantic problem it finds, with its JSON path, to a
 from __future__ import annotations
 
 import datetime as dt
+import itertools
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -163,7 +164,7 @@ def parse_decision(raw: Mapping[str, Any], path: str, problems: Problems) -> Dec
         )
     bands = tuple(Band(b["label"], float(b["upper"])) for b in raw.get("bands", ()))
     uppers = [b.upper for b in bands]
-    if bands and (any(a >= b for a, b in zip(uppers, uppers[1:], strict=False)) or uppers[-1] != 1):
+    if bands and (any(a >= b for a, b in itertools.pairwise(uppers)) or uppers[-1] != 1):
         problems.add(
             join(path, "bands"), f"upper limits must increase and end at 1; got {uppers}"
         )

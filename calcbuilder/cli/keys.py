@@ -18,7 +18,7 @@ from typing import Any
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
 from ..calc.atomic import atomic_write_text
-from ..calc.canonical import canonical_bytes, split_signature
+from ..calc.canonical import split_signature
 from ..calc.jsonio import dumps_pretty, parse_json, read_json_file
 from ..calc.keys import (
     DEFAULT_KEY_NAME,

@@ -106,9 +106,12 @@ def test_score_rows_messages_and_statsmodels_agreement(tmp_path, capsys):
     expected = fit.predict([[1, 3.0, 20, 1], [1, 2.66, 20, 0]])
     assert float(rows[0]["risk"]) == pytest.approx(expected[0], abs=1e-9)
     assert float(rows[1]["risk"]) == pytest.approx(expected[1], abs=1e-9)
-    assert rows[2]["risk"] == "" and "no value was entered" in rows[2]["warnings"]
-    assert rows[3]["risk"] == "" and "'3.x' is not a number" in rows[3]["warnings"]
-    assert float(rows[4]["risk"]) > 0 and "extrapolation" in rows[4]["warnings"]
+    assert rows[2]["risk"] == ""
+    assert "no value was entered" in rows[2]["warnings"]
+    assert rows[3]["risk"] == ""
+    assert "'3.x' is not a number" in rows[3]["warnings"]
+    assert float(rows[4]["risk"]) > 0
+    assert "extrapolation" in rows[4]["warnings"]
 
 
 def test_score_alternative_unit_header_and_refusals(tmp_path, capsys):

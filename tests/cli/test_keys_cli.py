@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 import stat
 import sys
+from pathlib import Path
 
 import pytest
 
