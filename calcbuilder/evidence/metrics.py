@@ -116,7 +116,7 @@ def _check(y: ArrayLike, risk: ArrayLike) -> tuple[FloatArray, FloatArray]:
     events = int(yv.sum())
     if min(events, yv.size - events) < 2:
         raise EvidenceError(f"an evidence set needs at least 2 events and 2 non-events; the "
-                            f"data have {events} events among {yv.size} rows")
+                            f"data have {events} and {yv.size - events} among {yv.size} rows")
     return yv, rv
 
 
