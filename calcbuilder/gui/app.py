@@ -182,8 +182,10 @@ class ClinicWindow(QMainWindow):
         self._enable_actions()
 
     def _close_form(self) -> None:
-        if self.body is not None:
+        if self.body is not None:  # gone at once from the widget tree, deleted soon after
             self.pages.removeWidget(self.body)
+            self.body.hide()
+            self.body.setParent(None)
             self.body.deleteLater()
         self.body = None
         self.session = None

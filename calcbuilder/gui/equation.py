@@ -57,7 +57,7 @@ def _columns(term: TermSpec, names: Mapping[str, tuple[str, ...]]) -> tuple[str,
     if single is not None:
         return (single,)
     if isinstance(t, Rcs):
-        return (x, *(f"rcs{j}({x})" for j in range(2, len(t.knots))))
+        return (x, *(f"S{j}({x})" for j in range(1, len(t.knots) - 1)))
     if isinstance(t, Hinges):
         return (x, *(f"({x} − {_n(k)})₊" for k in t.knots))
     if isinstance(t, Indicator | Levels):
@@ -69,8 +69,17 @@ def _columns(term: TermSpec, names: Mapping[str, tuple[str, ...]]) -> tuple[str,
     return (term.name,)  # pragma: no cover - the transform set is closed
 
 
+_GENERAL = ("(u)₊ = max(u, 0); [A] = 1 when A holds, else 0; ln is the natural logarithm; "
+            "every number enters in its canonical unit.")
+_RCS = ("Sj(x) = [ (x − tj)₊³ − (x − t(k−1))₊³ · (tk − tj) / (tk − t(k−1)) + (x − tk)₊³ · "
+        "(t(k−1) − tj) / (tk − t(k−1)) ] / (tk − t1)², j = 1 .. k − 2 (Harrell's "
+        "parameterisation, normalised as Hmisc rcspline.eval with norm = 2).")
+
+
 def _notes(model: ModelSpec, units: Mapping[str, str]) -> list[str]:
-    notes = []
+    notes = [_GENERAL]
+    if any(isinstance(term.transform, Rcs) for term in model.terms):
+        notes.append(_RCS)
     for term in model.terms:
         t = term.transform
         if term.truncate is not None:
@@ -79,8 +88,8 @@ def _notes(model: ModelSpec, units: Mapping[str, str]) -> list[str]:
             notes.append(f"{term.input} is first limited to [{low}, {high}].")
         if isinstance(t, Rcs):
             knots = ", ".join(_n(k) for k in t.knots)
-            notes.append(f"rcsj({term.input}): Harrell's restricted cubic spline columns with "
-                         f"knots {knots} (FORMAT.md, transform rcs).")
+            notes.append(f"Sj({term.input}): restricted cubic spline with knots t1..t"
+                         f"{len(t.knots)} = {knots}.")
     used = sorted({term.input for term in model.terms if term.input and term.input in units})
     if used:
         notes.append("Units: " + "; ".join(f"{i} in {units[i]}" for i in used) + ".")
@@ -124,5 +133,4 @@ def equation_text(model: ModelSpec, inputs: Sequence[InputSpec]) -> str:
                 f"survival {_n(s.baseline_survival)} at {_n(s.horizon)} {s.horizon_unit})"]
     units = {spec.id: spec.unit for spec in inputs if spec.unit}
     body = head + lines + [""] + _outcome_lines(model)
-    notes = _notes(model, units)
-    return "\n".join(body + (["", *notes] if notes else []))
+    return "\n".join([*body, "", *_notes(model, units)])

@@ -65,7 +65,7 @@ class WhyPanel(QWidget):
         self.equation_button = QPushButton("Show the equation")
         self.equation_button.setObjectName("equationButton")
         self.equation_button.setCheckable(True)
-        self.equation = QPlainTextEdit(equation_text(model, session.inputs))
+        self.equation = QPlainTextEdit()  # written on first request
         self.equation.setObjectName("equation")
         self.equation.setReadOnly(True)
         self.equation.setFont(QFont("DejaVu Sans Mono"))
@@ -90,6 +90,9 @@ class WhyPanel(QWidget):
                 "cause: it only shows how the model's arithmetic arrived at this estimate.")
 
     def _toggle_equation(self, shown: bool) -> None:
+        if shown and not self.equation.toPlainText():
+            calc = self._session.calculator
+            self.equation.setPlainText(equation_text(calc.model, calc.inputs))
         self.equation.setVisible(shown)
         self.equation_button.setText("Hide the equation" if shown else "Show the equation")
 
