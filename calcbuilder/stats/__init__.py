@@ -13,20 +13,11 @@ Conventions used throughout (see ``methods.md`` for formulas and sources):
 * Randomness is always an argument (``seed`` or ``numpy.random.Generator``).
 """
 
-from . import (
-    calibration,
-    decision,
-    discrimination,
-    logistic,
-    reclassification,
-    resampling,
-    samplesize,
-    separation,
-    splines,
-)
-from .calibration import *  # noqa: F403
-from .decision import *  # noqa: F403
-from .discrimination import *  # noqa: F403
+from __future__ import annotations
+
+import importlib
+from typing import TYPE_CHECKING, Any
+
 from .errors import (
     CancelledError,
     ConvergenceError,
@@ -34,12 +25,91 @@ from .errors import (
     SingularDesignError,
     StatsInputError,
 )
-from .logistic import *  # noqa: F403
-from .reclassification import *  # noqa: F403
-from .resampling import *  # noqa: F403
-from .samplesize import *  # noqa: F403
-from .separation import *  # noqa: F403
-from .splines import *  # noqa: F403
+
+# Public names by submodule. Submodules load on first use (PEP 562), so that
+# e.g. the clinic form can use ``calcbuilder.stats.splines`` without loading
+# scipy through the fitting modules.
+_PUBLIC: dict[str, tuple[str, ...]] = {
+    "discrimination": (
+        "AUCComparison",
+        "AUCEstimate",
+        "Classification",
+        "IntervalNotEstimableWarning",
+        "ROCPoints",
+        "YoudenPoint",
+        "auc",
+        "auc_ci",
+        "classify",
+        "compare_auc",
+        "roc_points",
+        "youden",
+    ),
+    "calibration": (
+        "CalibrationCurve",
+        "CalibrationErrors",
+        "CalibrationEstimate",
+        "HosmerLemeshowResult",
+        "SpiegelhalterResult",
+        "brier",
+        "calibration_curve",
+        "calibration_errors",
+        "calibration_intercept",
+        "calibration_slope",
+        "cox_snell_r2",
+        "hosmer_lemeshow",
+        "nagelkerke_r2",
+        "scaled_brier",
+        "spiegelhalter_z",
+    ),
+    "decision": (
+        "DecisionCurve",
+        "decision_curve",
+        "net_benefit",
+        "net_benefit_treat_all",
+    ),
+    "reclassification": (
+        "IDIResult",
+        "NRIResult",
+        "continuous_nri",
+        "idi",
+        "nri",
+    ),
+    "logistic": (
+        "LogisticFit",
+        "fit_logistic",
+    ),
+    "samplesize": (
+        "SampleSizeResult",
+        "max_r2_cs",
+        "sample_size_binary",
+    ),
+    "separation": (
+        "SeparationResult",
+        "detect_separation",
+    ),
+    "splines": (
+        "DEFAULT_KNOT_QUANTILES",
+        "rcs_basis",
+        "rcs_knots",
+    ),
+    "resampling": (
+        "BootstrapValidation",
+        "CVEstimate",
+        "CrossValidation",
+        "Efron632Estimate",
+        "Efron632Validation",
+        "FitProcedure",
+        "Metric",
+        "OptimismEstimate",
+        "PlainLogistic",
+        "Predictor",
+        "ResampleFailure",
+        "bootstrap_optimism",
+        "cross_validate",
+        "efron_632plus",
+    ),
+}
+_SOURCE = {name: module for module, names in _PUBLIC.items() for name in names}
 
 __all__ = [
     "CancelledError",
@@ -47,13 +117,101 @@ __all__ = [
     "SeparationError",
     "SingularDesignError",
     "StatsInputError",
-    *discrimination.__all__,
-    *calibration.__all__,
-    *decision.__all__,
-    *reclassification.__all__,
-    *logistic.__all__,
-    *samplesize.__all__,
-    *separation.__all__,
-    *splines.__all__,
-    *resampling.__all__,
+    *_SOURCE,
 ]
+
+
+def __getattr__(name: str) -> Any:
+    module = _SOURCE.get(name)
+    if module is None:
+        if name in _PUBLIC:
+            return importlib.import_module(f"{__name__}.{name}")
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f"{__name__}.{module}"), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__) | set(_PUBLIC))
+
+
+if TYPE_CHECKING:
+    from .calibration import (
+        CalibrationCurve,
+        CalibrationErrors,
+        CalibrationEstimate,
+        HosmerLemeshowResult,
+        SpiegelhalterResult,
+        brier,
+        calibration_curve,
+        calibration_errors,
+        calibration_intercept,
+        calibration_slope,
+        cox_snell_r2,
+        hosmer_lemeshow,
+        nagelkerke_r2,
+        scaled_brier,
+        spiegelhalter_z,
+    )
+    from .decision import (
+        DecisionCurve,
+        decision_curve,
+        net_benefit,
+        net_benefit_treat_all,
+    )
+    from .discrimination import (
+        AUCComparison,
+        AUCEstimate,
+        Classification,
+        IntervalNotEstimableWarning,
+        ROCPoints,
+        YoudenPoint,
+        auc,
+        auc_ci,
+        classify,
+        compare_auc,
+        roc_points,
+        youden,
+    )
+    from .logistic import (
+        LogisticFit,
+        fit_logistic,
+    )
+    from .reclassification import (
+        IDIResult,
+        NRIResult,
+        continuous_nri,
+        idi,
+        nri,
+    )
+    from .resampling import (
+        BootstrapValidation,
+        CrossValidation,
+        CVEstimate,
+        Efron632Estimate,
+        Efron632Validation,
+        FitProcedure,
+        Metric,
+        OptimismEstimate,
+        PlainLogistic,
+        Predictor,
+        ResampleFailure,
+        bootstrap_optimism,
+        cross_validate,
+        efron_632plus,
+    )
+    from .samplesize import (
+        SampleSizeResult,
+        max_r2_cs,
+        sample_size_binary,
+    )
+    from .separation import (
+        SeparationResult,
+        detect_separation,
+    )
+    from .splines import (
+        DEFAULT_KNOT_QUANTILES,
+        rcs_basis,
+        rcs_knots,
+    )

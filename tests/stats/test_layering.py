@@ -45,3 +45,17 @@ def test_stats_has_no_import_of_other_layers_in_source():
             if f"calcbuilder.{layer}" in text or f"from ..{layer}" in text:
                 offenders.append((path.name, layer))
     assert offenders == [], json.dumps(offenders)
+
+
+def test_every_public_name_resolves():
+    from calcbuilder import stats
+
+    missing = [name for name in stats.__all__ if getattr(stats, name, None) is None]
+    assert missing == []
+
+
+def test_spline_basis_loads_without_scipy():
+    """The clinic form scores spline terms; that must not pull scipy in (start-up time)."""
+    probe = "import sys, calcbuilder.stats.splines; print(any(m == 'scipy' for m in sys.modules))"
+    out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
