@@ -144,6 +144,7 @@ class ClinicWindow(QMainWindow):
         return action
 
     def _enable_actions(self) -> None:
+        """Clear needs an open form; print and save also need a risk (see :meth:`refresh`)."""
         ready = self.session is not None
         for action in (self.print_action, self.save_action, self.clear_action):
             action.setEnabled(ready)
@@ -240,6 +241,8 @@ class ClinicWindow(QMainWindow):
                 messages=messages.get(spec.id, ()), canonical=_number(checked.value),
                 converted=unit is not None and not unit.is_identity))
         self.body.show_result(result)
+        for action in (self.print_action, self.save_action):
+            action.setEnabled(result.risk is not None)
 
     def set_value(self, input_id: str, raw: str) -> None:
         """Type ``raw`` into an input's widget as a user would (command line, scripts)."""

@@ -37,6 +37,8 @@ def test_clear_wipes_every_value_and_the_patient_reference(qtbot, open_form, cal
     fill(qtbot, window)
     assert window.session.patient_ref == REF
     assert window.session.result().risk is not None
+    assert window.print_action.isEnabled()
+    assert window.save_action.isEnabled()
     qtbot.mouseClick(window.body.clear_button, Qt.MouseButton.LeftButton)
     session = window.session
     assert all(session.value(i) is None for i in window.body.inputs.ids())
@@ -53,6 +55,9 @@ def test_clear_wipes_every_value_and_the_patient_reference(qtbot, open_form, cal
     assert not label(window, "age_message").isVisible()
     assert window.body.why.table.rowCount() == 0
     assert not window.body.print_button.isEnabled()
+    assert not window.print_action.isEnabled()
+    assert not window.save_action.isEnabled()
+    assert window.clear_action.isEnabled()
 
 
 def test_print_goes_through_a_qprinter(qtbot, open_form, calc_file, tmp_path):
