@@ -2,18 +2,32 @@
 
 Widget tree (objectNames)::
 
-    ClinicWindow "clinicForm"
-      HeaderStrip "header"            (header.py)
+    ClinicWindow "clinicForm"            menus File (Open, Print, Save, Clear, Quit), Help (About)
+      HeaderStrip "header"               title, version, syntheticMarker, intendedUse,
+                                         signatureState, reviewBy, fingerprint, cautionLine,
+                                         trustBanner, refusal
       QStackedWidget "pages"
-        QLabel "welcome"              no calculator open / drop target text
-        QWidget "formBody"
+        QLabel "welcome"                 before a file is open, or after a refusal
+        FormBody "formBody"
           QSplitter "columns"
-            QScrollArea "inputsArea"  -> QLineEdit "patientRef", InputsPanel "inputs"
-            QScrollArea "riskArea"    -> RiskPanel "riskPanel" (QLabel "risk", ...)
-            QTabWidget "sections"     -> ThresholdPanel "thresholdPanel",
-                                         WhyPanel "whyPanel", EvidencePanel "evidencePanel"
-          QWidget "actionBar"         QPushButton "printButton", "saveButton",
-                                      "clearButton", "aboutButton"
+            QScrollArea "inputsArea"     QLineEdit "patientRef"; InputsPanel "inputs": per input
+                                         "<id>" (QLineEdit or QComboBox), "<id>_unit",
+                                         "<id>_canonical", "<id>_message"
+            QScrollArea "riskArea"       RiskPanel "riskPanel": riskQuestion, risk, riskInterval,
+                                         frequency, riskStatus, riskExtrapolation, cautions,
+                                         iconArray, cohortPosition, riskPosition
+            QTabWidget "sections"
+              "thresholdArea"            ThresholdPanel "thresholdPanel": threshold,
+                                         thresholdNumber, thresholdRatio, thresholdMessage,
+                                         thresholdMeaning, reasonableRange, riskVersusThreshold,
+                                         thresholdWarnings, netBenefit, evidenceSource,
+                                         decisionCurve
+              "whyArea"                  WhyPanel "whyPanel": whyIntro, contributions,
+                                         contributionsFigure, equationButton, equation
+              "evidenceArea"             EvidencePanel "evidencePanel": evidenceSummary
+                                         (evidence_<id> boxes), calibrationSet,
+                                         calibrationFigure, limitations
+          QWidget "actionBar"            printButton, saveButton, clearButton, aboutButton
 
 The window is the one controller: panels emit what the user typed, the window
 hands it to the :class:`ClinicSession` and shows the session's result again.
@@ -199,7 +213,6 @@ class ClinicWindow(QMainWindow):
         body.inputs.value_edited.connect(self._value_edited)
         body.inputs.unit_changed.connect(self._unit_changed)
         body.patient_ref.textEdited.connect(session.set_patient_ref)
-        body.threshold.threshold_changed.connect(lambda _t: None)
         body.print_button.clicked.connect(self.print_sheet)
         body.save_button.clicked.connect(self.save_sheet)
         body.clear_button.clicked.connect(self.clear)

@@ -224,3 +224,19 @@ def test_small_and_large_calculators_build(qtbot, open_form, tmp_path, n_inputs)
     type_into(qtbot, window, "age", "66")
     if n_inputs == 1:
         assert label(window, "risk").property("riskValue") is not None
+
+
+def test_calculator_without_covariance_or_evidence(qtbot, open_form, tmp_path):
+    path = write_calculator(tmp_path, covariance=False, with_evidence=False, synthetic=False)
+    window = open_form(path)
+    fill(qtbot, window)
+    risk = window.session.result().risk
+    assert label(window, "risk").property("riskValue") == risk
+    assert label(window, "riskInterval").text().startswith("No interval")
+    assert not label(window, "cohortPosition").isVisible()
+    assert not window.body.risk.cohort.isVisible()
+    warnings = label(window, "thresholdWarnings").text()
+    assert "no decision curve" in warnings
+    window.body.threshold.curve.flush()
+    assert window.body.threshold.curve.canvas is None
+    assert label(window, "noEvidence").text().endswith("holds no evidence of its performance.")
