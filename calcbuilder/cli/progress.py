@@ -13,6 +13,7 @@ from __future__ import annotations
 import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
+from typing import Any
 
 __all__ = ["ProgressCallback", "progress_bar"]
 
@@ -26,7 +27,7 @@ def _silent(done: int, total: int) -> bool:
 
 
 @contextmanager
-def progress_bar(description: str, *, enabled: bool | None = None
+def progress_bar(description: str, *, enabled: bool | None = None, console: Any = None
                  ) -> Iterator[ProgressCallback]:
     """Show a progress bar with ETA while the block runs.
 
@@ -36,6 +37,8 @@ def progress_bar(description: str, *, enabled: bool | None = None
         What is being computed, shown left of the bar.
     enabled : bool, optional
         Force the bar on or off (default: on when standard error is a terminal).
+    console : rich.console.Console, optional
+        Where to draw (default: standard error).
 
     Yields
     ------
@@ -58,7 +61,8 @@ def progress_bar(description: str, *, enabled: bool | None = None
 
     columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
                TimeElapsedColumn(), TextColumn("ETA"), TimeRemainingColumn())
-    with Progress(*columns, console=Console(stderr=True), transient=True) as bar:
+    with Progress(*columns, console=console or Console(stderr=True),
+                  transient=True) as bar:
         task = bar.add_task(description, total=None)
 
         def callback(done: int, total: int) -> bool:
