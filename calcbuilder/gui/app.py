@@ -63,6 +63,7 @@ from .panels import FormBody, InputView, welcome_label
 
 __all__ = ["ClinicWindow", "dropped_calculator", "make_app", "run_form"]
 
+_SHOWN_LINES = 8  # lines of a refusal shown in the header
 OPEN_FILTER = "Calculator files (*.calc.json);;JSON files (*.json);;All files (*)"
 
 
@@ -190,7 +191,12 @@ class ClinicWindow(QMainWindow):
 
     def _refuse(self, file_name: str, explanation: str, fingerprint: str | None = None
                 ) -> None:
+        lines = explanation.splitlines()
+        if len(lines) > _SHOWN_LINES:  # the full list is in the tooltip
+            more = len(lines) - _SHOWN_LINES
+            explanation = "\n".join([*lines[:_SHOWN_LINES], f"  … and {more} more problem(s)"])
         self.header.show_refused(file_name, explanation, fingerprint)
+        self.header.refusal.setToolTip("\n".join(lines))
         self.welcome.setText("No risk can be computed with this file. Open another "
                              "calculator file, or ask its author for a fresh copy.")
         self.pages.setCurrentWidget(self.welcome)

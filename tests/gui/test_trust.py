@@ -138,3 +138,16 @@ def test_caution_line_is_shown_before_any_file(open_form):
     assert label(window, "cautionLine").isVisible()
     assert label(window, "welcome").isVisible()
     assert not window.print_action.isEnabled()
+
+
+def test_a_long_list_of_problems_is_cut_in_the_header(open_form, tmp_path):
+    doc = make_calculator(12)
+    for spec in doc["inputs"]:
+        spec["labelx"] = "typo"
+    path = tmp_path / "many.calc.json"
+    path.write_text(json.dumps(doc, ensure_ascii=False), "utf-8")
+    window = open_form(path)
+    refusal = label(window, "refusal")
+    assert "more problem(s)" in refusal.text()
+    assert len(refusal.text().splitlines()) == 9
+    assert refusal.toolTip().count("unknown field(s) 'labelx'") == 12
