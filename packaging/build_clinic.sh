@@ -40,12 +40,25 @@ for f in "${calcs[@]}" "${keys[@]}"; do
   [ -f "$f" ] || { echo "build_clinic: no such file: $f" >&2; exit 2; }
 done
 
-# PyInstaller needs objdump (binutils) to find shared libraries on Linux.
-if ! command -v objdump >/dev/null 2>&1; then
+# System packages: objdump (binutils) for PyInstaller, and the two X11 libraries
+# Qt's xcb plugin needs that many images lack (desktop-stack.md 1). Libraries
+# missing at build time are not bundled and must then exist on each clinic PC.
+need=()
+command -v objdump >/dev/null 2>&1 || need+=(binutils)
+if command -v dpkg >/dev/null 2>&1; then
+  for pkg in libxcb-icccm4 libxcb-keysyms1; do
+    dpkg -s "$pkg" >/dev/null 2>&1 || need+=("$pkg")
+  done
+fi
+if [ "${#need[@]}" -gt 0 ]; then
   if [ "$(id -u)" = "0" ] && command -v apt-get >/dev/null 2>&1; then
-    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends binutils >/dev/null
-  else
+    export DEBIAN_FRONTEND=noninteractive
+    apt_install() { apt-get install -y -qq --no-install-recommends "${need[@]}" >/dev/null; }
+    apt_install || { apt-get update -qq && apt_install; }
+  elif ! command -v objdump >/dev/null 2>&1; then
     echo "build_clinic: objdump not found; install binutils" >&2; exit 1
+  else
+    echo "build_clinic: warning: ${need[*]} not installed; they will not be bundled" >&2
   fi
 fi
 

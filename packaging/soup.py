@@ -53,6 +53,8 @@ PURPOSES = {
     "pillow": "images for matplotlib and reportlab",
     "pyinstaller": "bootloader and start-up code of the frozen program",
 }
+# SPDX id -> file in Debian's /usr/share/common-licenses (the LGPL builds on the GPL).
+COMMON_LICENCES = {"LGPL-3.0": "LGPL-3", "GPL-2.0": "GPL-2", "GPL-3.0": "GPL-3"}
 LICENCE_FILE = re.compile(r"^(licen[cs]e|copying|notice|authors)", re.IGNORECASE)
 
 
@@ -219,13 +221,24 @@ def copy_licences(components: dict[str, Component], site_dirs: list[str], out: P
                 dest = target / f"{comp.name}-{comp.version}" / path.name
                 _copy(path, dest, comp, out)
     for comp in components.values():
-        if comp.kind == "python runtime":
+        if comp.kind == "python distribution" and not comp.licence_files:
+            _common_licences(comp, target, out)
+        elif comp.kind == "python runtime":
             source = Path(sys.base_prefix) / "lib" / f"python{sys.version_info[0]}." \
                 f"{sys.version_info[1]}" / "LICENSE.txt"
             _copy(source, target / f"Python-{comp.version}" / "LICENSE.txt", comp, out)
         elif comp.kind == "system library" and comp.licence.startswith("see /"):
             source = Path(comp.licence.removeprefix("see "))
             _copy(source, target / f"debian-{comp.name}" / "copyright", comp, out)
+
+
+def _common_licences(comp: Component, target: Path, out: Path) -> None:
+    """For wheels that ship no licence text (PySide6, shiboken6): the texts their
+    licence expression names, from the build machine's common-licenses folder."""
+    for spdx, text in COMMON_LICENCES.items():
+        if spdx in comp.licence:
+            source = Path("/usr/share/common-licenses") / text
+            _copy(source, target / f"{comp.name}-{comp.version}" / text, comp, out)
 
 
 def _copy(source: Path, dest: Path, comp: Component, out: Path) -> None:
@@ -258,15 +271,26 @@ def write(out: Path, info: dict[str, object], components: list[Component],
         {"build": info, "components": [asdict(c) for c in components],
          "installed_in_build_venv_but_not_shipped": not_shipped, "problems": problems},
         indent=1, ensure_ascii=False) + "\n", "utf-8")
-    lines = ["SOUP list: third-party software inside this build of calcbuilder-clinic", ""]
-    lines += [f"{key:28} {value}" for key, value in info.items()] + [""]
-    header = f"{'name':26} {'version':16} {'licence':34} purpose"
-    lines += [header, "-" * len(header)]
-    for c in components:
-        lines.append(f"{c.name:26} {c.version:16} {c.licence:34} {c.purpose}")
-    lines += ["", "Kinds: " + "; ".join(f"{c.name} = {c.kind}" for c in components
-                                         if c.kind != "python distribution"),
-              "", "Licence texts: licences/ beside this file.",
+    lines = ["SOUP list: third-party software inside this build of calcbuilder-clinic",
+             "(every file PyInstaller collected, traced to its owner; soup.json has the same)",
+             ""]
+    lines += [f"{key:28} {value}" for key, value in info.items()]
+    sections = (("python distribution", "Python distributions (from the build venv)"),
+                ("python runtime", "Python runtime"),
+                ("system library", "System libraries copied from the build machine "
+                 "(Debian packages)"))
+    for kind, title in sections:
+        rows = [c for c in components if c.kind == kind]
+        if not rows:
+            continue
+        lines += ["", f"{title}: {len(rows)}", ""]
+        for c in rows:
+            lines += [f"{c.name} {c.version}", f"    licence: {c.licence}",
+                      f"    purpose: {c.purpose}"]
+    missing = [c.name for c in components if not c.licence_files]
+    lines += ["", "Licence texts: licences/ beside this file.",
+              "No licence text found for (add before distributing): "
+              + (", ".join(missing) or "none"),
               "Installed in the build venv but not shipped: " + ", ".join(not_shipped)]
     lines += [f"PROBLEM: {p}" for p in problems]
     (out / "SOUP.txt").write_text("\n".join(lines) + "\n", "utf-8")
@@ -290,7 +314,7 @@ def main(argv: list[str] | None = None) -> int:
     problems = [f"forbidden library collected: {c.name}" for c in ordered
                 if norm(c.name) in FORBIDDEN]
     problems += [f"authoring module collected: {name}" for name, _src in manifest["pure"]
-                 if name.startswith(FORBIDDEN_MODULES)]
+                 if any(name == m or name.startswith(m + ".") for m in FORBIDDEN_MODULES)]
     write(args.out, build_info(), ordered, not_shipped, problems)
     print(f"[soup] {len(ordered)} components written to {args.out / 'SOUP.txt'}")
     for problem in problems:
