@@ -32,11 +32,24 @@ from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey 
 from PySide6.QtGui import QImage  # noqa: E402
 
 from calcbuilder.calc.keys import TrustedKeys, public_key_pem  # noqa: E402
+from calcbuilder.calc.signing import sign_document  # noqa: E402
 from calcbuilder.clinic.threshold import Threshold  # noqa: E402
 from calcbuilder.gui.app import ClinicWindow, make_app  # noqa: E402
 from tests.fixtures_calc import make_calculator, patient_values, write_calculator  # noqa: E402
 
 PATIENT = {"age": "78", "creatinine": "1.3", "falls": "yes", "living": "assisted"}
+
+
+def _with_calibration(key: Ed25519PrivateKey) -> dict[str, Any]:
+    """The test calculator with a (made-up) calibration curve in its external set, signed."""
+    doc = make_calculator()
+    external = next(e for e in doc["evidence"] if e["kind"] == "external")
+    risk = [0.03, 0.08, 0.15, 0.25, 0.35, 0.45, 0.55]
+    external["calibration_curve"] = {
+        "risk": risk, "observed": [0.07, 0.16, 0.27, 0.4, 0.5, 0.58, 0.64],
+        "low": [0.05, 0.13, 0.24, 0.36, 0.45, 0.51, 0.55],
+        "high": [0.09, 0.19, 0.3, 0.44, 0.55, 0.65, 0.73]}
+    return sign_document(doc, key)
 
 
 class Shots:
@@ -48,7 +61,8 @@ class Shots:
         pub = folder / "demo-signer.pub"
         pub.write_bytes(public_key_pem(key.public_key(), "Test signing unit"))
         self.trusted = TrustedKeys(folder / "no-such-folder", extra_files=(pub,))
-        self.signed = write_calculator(folder, "signed.calc.json", signed=True, key=key)
+        self.signed = folder / "signed.calc.json"
+        self.signed.write_text(json.dumps(_with_calibration(key), ensure_ascii=False), "utf-8")
         self.unsigned = write_calculator(folder, "unsigned.calc.json")
         self.stranger = write_calculator(folder, "stranger.calc.json", signed=True,
                                          review_by="2026-02-01")
