@@ -15,7 +15,8 @@ from collections.abc import Sequence
 from .. import __version__
 
 # Modules under calcbuilder.cli that register commands, in --help order.
-COMMAND_MODULES = ("calcfile", "keys", "importing", "clinic", "form", "updating", "authoring")
+COMMAND_MODULES = ("calcfile", "keys", "importing", "clinic", "form", "updating", "authoring",
+                   "reporting")
 
 EXIT_OK, EXIT_FAILED, EXIT_USAGE = 0, 1, 2
 

@@ -261,7 +261,9 @@ def _automatic_cautions(ctx: Context) -> list[str]:
     if ctx.loaded.state is not TrustState.VERIFIED:
         out.append("Signature: " + esc(STATE_WORDS[ctx.loaded.state]) + ".")
     kinds = {e.kind for e in calc.evidence}
-    if "external" not in kinds:
+    if not kinds:
+        out.append("No performance evidence of any kind is attached.")
+    elif "external" not in kinds:
         out.append("No external validation is attached.")
     if calc.model.covariance is None:
         out.append("No covariance matrix: the calculator cannot show an interval around a "

@@ -57,22 +57,18 @@ def _ratio(beta: float, ci: tuple[float, float] | None) -> str:
 
 
 def _row(st: ReportStyles, number: str, term: str, symbol: str, beta: float, *,
-         se: float | None, ratio: str | None, centre: float | None) -> list[Flowable]:
+         se: float | None, ratio: str | None) -> list[Flowable]:
     ci = _ci(beta, se)
-    cells = [Paragraph(number, st.cell), Paragraph(esc(term), st.cell),
-             Paragraph(symbol, st.cell), Paragraph(exact(beta), st.cell_mono),
-             Paragraph(_g(se), st.cell_mono),
-             Paragraph("—" if ci is None else f"{_g(ci[0])} to {_g(ci[1])}", st.cell_mono),
-             Paragraph("—" if ratio is None else f"{_ratio(beta, ci)}<br/>"
-                       f"<font color='#555555'>{ratio}</font>", st.cell)]
-    if centre is not None:
-        cells.append(Paragraph(exact(centre), st.cell_mono))
-    return cells
+    return [Paragraph(number, st.cell), Paragraph(esc(term), st.cell),
+            Paragraph(symbol, st.cell), Paragraph(exact(beta), st.cell_mono),
+            Paragraph(_g(se), st.cell_mono),
+            Paragraph("—" if ci is None else f"{_g(ci[0])} to {_g(ci[1])}", st.cell_mono),
+            Paragraph("—" if ratio is None else f"{_ratio(beta, ci)}<br/>"
+                      f"<font color='#555555'>{ratio}</font>", st.cell)]
 
 
-def _widths(width: float, survival: bool) -> list[float]:
-    parts = ([18, 52, 86, 100, 38, 90, 70, 61] if survival else
-             [18, 66, 92, 94, 34, 108, 103])
+def _widths(width: float) -> list[float]:
+    parts = [18, 66, 92, 94, 34, 108, 103]
     scale = width / sum(parts)
     return [p * scale for p in parts]
 
@@ -83,24 +79,26 @@ def coefficient_story(calc: Calculator, st: ReportStyles, width: float) -> list[
     survival = model.family != "logistic"
     ratio_name = "Hazard ratio" if survival else "Odds ratio"
     head = ["#", "Term", "Column", "Coefficient (as stored)", "SE", "95% CI",
-            f"{ratio_name} (95% CI)"] + (["Centring value"] if survival else [])
+            f"{ratio_name} (95% CI)"]
     rows: list[Sequence[Flowable]] = [[Paragraph(h, st.cell_bold) for h in head]]
     ses = standard_errors(calc)
     offset = 0
     if not survival:
         assert model.intercept is not None  # logistic files always have one
         rows.append(_row(st, "0", "(intercept)", "β<sub>0</sub>", model.intercept, se=ses[0],
-                         ratio=None, centre=None))
+                         ratio=None))
         offset = 1
     coefs = [c for term in model.terms for c in term.coefficients]
-    centre = model.survival.centre if model.survival is not None else None
     for i, (col, beta) in enumerate(zip(columns(model), coefs, strict=True)):
         name = col.term if col.index == 0 else ""
         rows.append(_row(st, str(i + 1), name, col.symbol, beta, se=ses[i + offset],
-                         ratio=col.ratio, centre=None if centre is None else centre[i]))
-    out: list[Flowable] = [grid_table(rows, _widths(width, survival))]
+                         ratio=col.ratio))
+    out: list[Flowable] = [grid_table(rows, _widths(width))]
     notes = ["Coefficients are printed exactly as stored in the file (the shortest decimal "
              "that reads back to the same number); everything else in the table is rounded."]
+    if survival:
+        notes.append("The centring value of each column is printed, exactly as stored, in the "
+                     "linear predictor above.")
     if model.covariance is None:
         notes.append("The file holds no covariance matrix, so standard errors, confidence "
                      "intervals and the interval around each patient's risk are not available.")
@@ -127,9 +125,10 @@ def covariance_story(calc: Calculator, st: ReportStyles, width: float) -> list[F
     if cov is None:
         return [Paragraph("Not provided in the calculator file.", st.small)]
     names = _names(calc)
+    intercept = " (β0 is the intercept)" if calc.model.family == "logistic" else ""
     out: list[Flowable] = [Paragraph(
-        "Rows and columns follow the numbering of the coefficient table (β0 is the intercept). "
-        "Values are rounded to 10 significant digits; the file holds them exactly.", st.grey)]
+        f"Rows and columns follow the numbering of the coefficient table{intercept}. Values "
+        "are rounded to 10 significant digits; the file holds them exactly.", st.grey)]
     size = len(names)
     per = -(-size // -(-size // _MATRIX_BLOCK))  # blocks of near-equal width
     for start in range(0, size, per):

@@ -273,7 +273,11 @@ def inputs_story(ctx: Context) -> list[Flowable]:
                      Paragraph(_notes_text(spec, spec.id in used), st.cell)])
     parts = [58, 90, 48, 96, 50, 54, 119]
     scale = ctx.width / sum(parts)
-    out: list[Flowable] = [grid_table(rows, [p * scale for p in parts]), Spacer(1, 3)]
+    out: list[Flowable] = [
+        Paragraph(f"The {len(ctx.calc.inputs)} patient values the calculator asks for, in the "
+                  "order of the clinic form. The id is the name used in the equation and in "
+                  "the test vectors.", st.body),
+        grid_table(rows, [p * scale for p in parts]), Spacer(1, 3)]
     out.append(Paragraph(
         "Values outside the hard limits are refused as implausible. Values outside the "
         "developed range (the range in the development data) are accepted with a warning that "

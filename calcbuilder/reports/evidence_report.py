@@ -37,6 +37,7 @@ from reportlab.platypus import (
     KeepTogether,
     PageBreak,
     PageTemplate,
+    Paragraph,
     Spacer,
 )
 from reportlab.platypus.tableofcontents import TableOfContents
@@ -68,7 +69,8 @@ from ._report_text import STATE_SHORT, SYNTHETIC_MARK
 from ._report_vectors import vectors_story
 from .fonts import FONT, FONT_BOLD
 
-__all__ = ["PAGE_SIZES", "SECTION_TITLES", "ReportInfo", "make_report", "report_bytes"]
+__all__ = ["APPENDIX_TITLE", "PAGE_SIZES", "SECTION_TITLES", "ReportInfo", "make_report",
+           "report_bytes"]
 
 PAGE_SIZES = {"A4": A4, "Letter": LETTER}
 Page = Literal["A4", "Letter"]
@@ -77,13 +79,25 @@ _MARGIN = 16 * mm
 _BAND = 7 * mm
 
 
+_INLINE_COVARIANCE = 8  # larger covariance matrices go to the appendix
+APPENDIX_TITLE = "Appendix: covariance matrix of the coefficients"
+
+
+def _covariance_in_appendix(ctx: Context) -> bool:
+    cov = ctx.calc.model.covariance
+    return cov is not None and len(cov) > _INLINE_COVARIANCE
+
+
 def _model_story(ctx: Context) -> list[Flowable]:
     st = ctx.st
-    return [*equation_story(ctx.calc, st),
-            heading("", "Coefficients", st.h2, level=1), *coefficient_story(ctx.calc, st,
-                                                                            ctx.width),
-            heading("", "Covariance matrix of the coefficients", st.h2, level=1),
-            *covariance_story(ctx.calc, st, ctx.width)]
+    out = [*equation_story(ctx.calc, st), heading("", "Coefficients", st.h2, level=1),
+           *coefficient_story(ctx.calc, st, ctx.width),
+           heading("", "Covariance matrix of the coefficients", st.h2, level=1)]
+    if _covariance_in_appendix(ctx):
+        size = len(ctx.calc.model.covariance or ())
+        return [*out, Paragraph(f"The {size} × {size} matrix is printed in the appendix at "
+                                "the end of this report.", st.body)]
+    return out + covariance_story(ctx.calc, st, ctx.width)
 
 
 _SECTIONS: tuple[tuple[str, Story], ...] = (
@@ -134,6 +148,9 @@ def _story(ctx: Context, sections: list[tuple[str, Story]]) -> list[Flowable]:
         body = build(ctx)
         out.append(KeepTogether([heading(f"{number}.", title, st.h1), *body[:1]]))
         out += body[1:]
+    if _covariance_in_appendix(ctx):
+        out += [PageBreak(), heading("A.", APPENDIX_TITLE, st.h1),
+                *covariance_story(ctx.calc, st, ctx.width)]
     return out
 
 
@@ -253,8 +270,9 @@ def report_bytes(loaded: LoadedCalculator, *, page: Page = "A4",
     doc.addPageTemplates([PageTemplate("report", [frame])])
     sections = _sections(ctx)
     doc.multiBuild(_story(ctx, sections), canvasmaker=_canvas_maker(ctx))
-    data = buffer.getvalue()
-    return data, ReportInfo(None, doc.page, tuple(t for t, _ in sections))
+    titles = tuple(t for t, _ in sections) + (
+        (APPENDIX_TITLE,) if _covariance_in_appendix(ctx) else ())
+    return buffer.getvalue(), ReportInfo(None, doc.page, titles)
 
 
 def make_report(loaded: LoadedCalculator, path: str | Path, *, page: Page = "A4",

@@ -49,7 +49,7 @@ COEFS: dict[str, list[float]] = {
     "age_x_sensory": [0.0112345678901234, -0.0212345678901234, 0.0312345678901234],
 }
 S0 = 0.9312345678901234
-RECAL = {"method": "slope", "intercept": 0.5512345678901234, "slope": 0.8512345678901234,
+RECAL = {"method": "slope", "intercept": 0.5512345678901234, "slope": 1.1234567890123457,
          "dataset": "Demo Hospital B, 2025 (synthetic)", "n": 800, "events": 0}
 
 
@@ -189,6 +189,11 @@ def _covariance(k: int) -> list[list[float]]:
     return (np.outer(se, se) * corr).tolist()
 
 
+_RECIPE = json.dumps({"outcome": {"column": "delirium", "event": 1},
+                      "terms": [{"input": i, "transform": "linear"} for i in range(12)],
+                      "fit": {"firth": False}}, separators=(",", ":"))
+
+
 def _sha(text: str) -> str:
     return hashlib.sha256(text.encode()).hexdigest()
 
@@ -232,7 +237,7 @@ def _evidence(family: str, recal: bool) -> tuple[list[dict[str, Any]], float]:
                             dataset=ds_a, settings={"events_per_parameter": 11.2,
                                                     "riley_minimum_rows": 1210,
                                                     "riley_binding_criterion": "shrinkage",
-                                                    "recipe": json.dumps({"knots": 4})},
+                                                    "recipe": _RECIPE},
                             **common)
     apparent["id"] = "apparent-1"
     apparent["metrics"]["discrimination_slope"] = {"value": 0.1234}
