@@ -1,12 +1,14 @@
 #!/usr/bin/env bash
 # Build the standalone clinic form, dist/calcbuilder-clinic/ (PyInstaller one-folder).
 #
-# Usage: packaging/build_clinic.sh [--fresh] [--no-selftest] [FILE.calc.json ...] [KEY.pub ...]
+# Usage: packaging/build_clinic.sh [options] [FILE.calc.json ...] [KEY.pub ...]
 #
 #   FILE.calc.json  calculator files to put beside the program (it opens them at start)
 #   KEY.pub         public keys to put in trusted-keys/ beside the program
 #   --fresh         delete the build venv and PyInstaller's cache first
 #   --no-selftest   do not run the finished program's --selftest at the end
+#   --prepare       only make the build venv (step 1), then stop
+#   --distpath DIR  put the program in DIR/calcbuilder-clinic (default: dist)
 #
 # Steps: (1) a lean venv, build/clinic-venv, holding only what the clinic form
 # needs plus PyInstaller; (2) PyInstaller with packaging/clinic.spec; (3) the
@@ -16,26 +18,31 @@
 # program and checked with its --check; (5) the program's --selftest.
 # Everything it writes is under build/ and dist/ (both git-ignored).
 set -euo pipefail
-cd "$(dirname "$0")/.."
-ROOT=$PWD
+ROOT=$(cd "$(dirname "$0")/.." && pwd)
 VENV=$ROOT/build/clinic-venv
 WORK=$ROOT/build/clinic-work
 SRC=$ROOT/build/clinic-src
-DIST=$ROOT/dist/calcbuilder-clinic
+DISTPATH=$ROOT/dist
 PYTHON=${PYTHON:-python3}
 t0=$SECONDS
 
-fresh=0 selftest=1 calcs=() keys=()
-for arg in "$@"; do
-  case $arg in
+fresh=0 selftest=1 prepare=0 calcs=() keys=()
+while [ $# -gt 0 ]; do
+  case $1 in
     --fresh) fresh=1 ;;
     --no-selftest) selftest=0 ;;
-    -h|--help) sed -n '2,17p' "$0"; exit 0 ;;
-    *.json) calcs+=("$arg") ;;
-    *.pub) keys+=("$arg") ;;
-    *) echo "build_clinic: unknown argument '$arg' (see --help)" >&2; exit 2 ;;
+    --prepare) prepare=1 ;;
+    --distpath) [ $# -ge 2 ] || { echo "build_clinic: --distpath needs a folder" >&2; exit 2; }
+                DISTPATH=$(realpath -m "$2"); shift ;;
+    -h|--help) sed -n '2,21p' "$0"; exit 0 ;;
+    *.json) calcs+=("$(realpath -m "$1")") ;;  # relative to where the script was called
+    *.pub) keys+=("$(realpath -m "$1")") ;;
+    *) echo "build_clinic: unknown argument '$1' (see --help)" >&2; exit 2 ;;
   esac
+  shift
 done
+DIST=$DISTPATH/calcbuilder-clinic
+cd "$ROOT"
 for f in "${calcs[@]}" "${keys[@]}"; do
   [ -f "$f" ] || { echo "build_clinic: no such file: $f" >&2; exit 2; }
 done
@@ -88,10 +95,11 @@ cp pyproject.toml README.md "$SRC/"
 tar --exclude=__pycache__ -cf - calcbuilder | tar -xf - -C "$SRC"
 quiet_pip --no-deps --force-reinstall "$SRC"
 echo "[build_clinic] venv ready after $((SECONDS - t0)) s"
+[ "$prepare" = 0 ] || exit 0
 
 # --- 2. PyInstaller -----------------------------------------------------------------------
 t1=$SECONDS
-"$VENV/bin/pyinstaller" --noconfirm --log-level WARN --distpath "$ROOT/dist" \
+"$VENV/bin/pyinstaller" --noconfirm --log-level WARN --distpath "$DISTPATH" \
   --workpath "$WORK" packaging/clinic.spec
 echo "[build_clinic] PyInstaller done in $((SECONDS - t1)) s"
 

@@ -179,6 +179,31 @@ def _vector_risks(loaded: LoadedCalculator) -> list[str]:
     return [f"{len(vectors)} test vectors recomputed through ClinicSession (within {TOLERANCE:g})"]
 
 
+def _spline_basis() -> list[str]:
+    """Spline terms score inside the build (their path once pulled in scipy, which is absent).
+
+    Compared with Harrell's restricted cubic spline written out by hand.
+    """
+    import numpy as np
+
+    from calcbuilder.calc.transforms import rcs_columns
+
+    knots = (68.0, 74.0, 79.0, 88.0)
+    x = np.array([60.0, 70.0, 77.0, 85.0, 95.0])
+
+    def cube(v: float) -> float:
+        return max(v, 0.0) ** 3
+
+    t1, tk1, tk = knots[0], knots[-2], knots[-1]
+    expected = [[xi] + [(cube(xi - tj) - cube(xi - tk1) * (tk - tj) / (tk - tk1)
+                         + cube(xi - tk) * (tk1 - tj) / (tk - tk1)) / (tk - t1) ** 2
+                        for tj in knots[:-2]] for xi in x]
+    worst = float(np.max(np.abs(rcs_columns(x, knots) - np.array(expected))))
+    if not worst <= 1e-12:
+        raise SelftestError(f"spline basis differs from the hand-written one by {worst:.3g}")
+    return ["restricted cubic spline basis matches the hand-written formula"]
+
+
 def _sheet(loaded: LoadedCalculator) -> tuple[bytes, list[str]]:
     """Make the risk sheet for the first vector in memory (reportlab and fonts work)."""
     from calcbuilder.clinic.session import ClinicSession
@@ -286,7 +311,7 @@ def run_selftest(calculator: Path, key: Path, *, gui: bool = True,
 
     Only ``key`` is trusted (the user's own list is not read). Steps: load and
     verify the signed calculator; recompute its test vectors through
-    ``ClinicSession``; make the risk sheet in memory; build the form window,
+    ``ClinicSession``; score a spline basis; make the risk sheet in memory; build the form window,
     type a vector, draw and grab it; render the sheet with QtPdf; inside the
     build, prove the authoring side and heavy libraries are absent and (when
     ``guarded``) that the network guard refuses a connection.
@@ -299,7 +324,7 @@ def run_selftest(calculator: Path, key: Path, *, gui: bool = True,
         raise SelftestError(f"signature: expected verified, got {loaded.state.value}: "
                             f"{loaded.verification.message}")
     lines = ["calculator loaded, schema checked, signature verified"]
-    lines += _vector_risks(loaded)
+    lines += _vector_risks(loaded) + _spline_basis()
     pdf, sheet_lines = _sheet(loaded)
     lines += sheet_lines
     if gui:
