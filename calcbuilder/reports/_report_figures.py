@@ -111,6 +111,24 @@ def _grouped_table(ev: EvidenceSet, st: ReportStyles, width: float) -> list[Flow
             grid_table(rows, [p * scale for p in parts])]
 
 
+def _curve_notes(ev: EvidenceSet, st: ReportStyles) -> list[Flowable]:
+    """The smoother used, and how many stored points the figure leaves out (null values)."""
+    curve = ev.raw.get("calibration_curve")
+    if not curve:
+        return []
+    out: list[Flowable] = []
+    if curve.get("smoother"):
+        out += [Spacer(1, 4), Paragraph(f"Smoother: {esc(str(curve['smoother']))}", st.grey)]
+    total = len(curve["risk"])
+    drawn = len(_kept(curve, ("risk", "observed", "low", "high")))
+    if drawn < total:
+        out += [Spacer(1, 2), Paragraph(
+            f"The curve is drawn where its 95% band could be estimated: {drawn} of the {total} "
+            "stored points (the file leaves the band empty where too few resamples reached).",
+            st.grey)]
+    return out
+
+
 def _failed(exc: Exception, st: ReportStyles) -> Paragraph:
     return Paragraph(f"This figure could not be drawn from the stored numbers: {esc(str(exc))}",
                      st.body)
@@ -136,9 +154,7 @@ def calibration_story(ctx: Context) -> list[Flowable]:
             figure = _failed(exc, st)
         left_w = _CAL_SIZE[0] * 72 + 4
         table = _grouped_table(ev, st, ctx.width - left_w - 8)
-        smoother = (ev.raw.get("calibration_curve") or {}).get("smoother")
-        if smoother:
-            table += [Spacer(1, 4), Paragraph(f"Smoother: {esc(str(smoother))}", st.grey)]
+        table += _curve_notes(ev, st)
         out += [KeepTogether([Paragraph(esc(ev.label), st.h2),
                               _side_by_side(figure, table, left_w, ctx.width)]), Spacer(1, 4)]
     return out

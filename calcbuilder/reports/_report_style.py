@@ -58,7 +58,6 @@ class ReportStyles:
                                         fontSize=7, leading=9)
         self.cell_tiny = ParagraphStyle("r-cell-tiny", self.cell_mono, fontSize=6.2,
                                         leading=8.2)
-        self.cell_right = ParagraphStyle("r-cell-right", self.cell, alignment=2)
         self.mono = ParagraphStyle("r-mono", self.small, fontName=FONT_MONO, fontSize=7.2)
         self.equation = ParagraphStyle("r-eq", base, fontSize=8.5, leading=12.5, leftIndent=14,
                                        firstLineIndent=-14, spaceAfter=1)

@@ -7,6 +7,7 @@ normalised before searching (desktop-stack.md, pitfall 5).
 
 from __future__ import annotations
 
+import copy
 import datetime as dt
 import io
 import json
@@ -40,6 +41,7 @@ from tests.reports.report_fixtures import (
     S0,
     cohort,
     independent_risk,
+    rich_document,
     write_rich,
 )
 
@@ -411,3 +413,29 @@ def test_cli_usage_errors_exit_2(tmp_path, capsys):
     assert run(capsys, "report")[0] == 2
     assert run(capsys, "report", tmp_path / "x.calc.json")[0] == 2  # no -o
     assert run(capsys, "report", tmp_path / "x", "-o", tmp_path / "o.pdf", "--page", "A5")[0] == 2
+
+
+def test_imported_evidence_null_band_points_and_expired(tmp_path):
+    """An imported set adds its section; null band points are left out with a note; a past
+    review-by date is flagged."""
+    doc = rich_document(evidence=True)
+    imported = copy.deepcopy(doc["evidence"][2])
+    imported.update(id="imported-1", kind="imported", label="Registry audit (imported)",
+                    source="predictions supplied")
+    imported.pop("reclassification")
+    curve = imported["calibration_curve"]
+    curve["low"][:3] = [None] * 3
+    curve["high"][:3] = [None] * 3
+    doc["evidence"].append(imported)
+    path = tmp_path / "imported.calc.json"
+    path.write_text(json.dumps(doc, ensure_ascii=False), "utf-8")
+    loaded = load_calculator(path, today=dt.date(2029, 1, 1))
+    data, info = report_bytes(loaded, generated_at=WHEN)
+    text = " ".join(pages_text(data))
+    assert "Imported evidence" in info.sections
+    assert "8. Imported evidence" in text
+    assert "Registry audit (imported)" in text
+    assert "calcbuilder has not recomputed them" in text
+    assert "drawn where its 95% band could be estimated: 197 of the 200" in text
+    assert "PASSED" in text
+    assert "The review-by date (2028-01-15) has passed." in text
