@@ -34,9 +34,8 @@ def load_schema(version: int = FORMAT_VERSION) -> dict[str, Any]:
 def _validator(version: int) -> Any:
     from jsonschema import Draft202012Validator
 
-    schema = load_schema(version)
-    Draft202012Validator.check_schema(schema)
-    return Draft202012Validator(schema)
+    # the schema itself is checked once by tests/calc/test_schema.py, not at every start
+    return Draft202012Validator(load_schema(version))
 
 
 def _path_of(parts: Any) -> str:
