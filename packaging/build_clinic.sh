@@ -43,6 +43,10 @@ while [ $# -gt 0 ]; do
 done
 DIST=$DISTPATH/calcbuilder-clinic
 cd "$ROOT"
+# One build at a time: test runs started side by side share build/clinic-venv.
+mkdir -p build
+exec 9>build/clinic-build.lock
+flock 9
 for f in "${calcs[@]}" "${keys[@]}"; do
   [ -f "$f" ] || { echo "build_clinic: no such file: $f" >&2; exit 2; }
 done

@@ -139,6 +139,9 @@ def describe(loaded: LoadedCalculator) -> list[str]:
 def check_files(paths: Sequence[Path], trusted: TrustedKeys, out: Callable[[str], None]) -> int:
     """Load each calculator as the form would and report it; 1 if any is refused."""
     status = EXIT_OK
+    out(f"user's trusted-key folder: {trusted.directory}")
+    for entry in trusted.entries():
+        out(f"trusted key: {entry.name}  {entry.key_fingerprint}  ({entry.path})")
     if not paths:
         out("no calculator files given and none beside the program")
     for path in paths:
@@ -218,13 +221,6 @@ def _sheet(loaded: LoadedCalculator) -> tuple[bytes, list[str]]:
     return data, [f"risk sheet made in memory ({len(data):,} bytes, 1 page, layout {info.layout})"]
 
 
-def _typed(value: object) -> str:
-    """A stored value as a user would type or choose it in the form."""
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    return str(value)
-
-
 def _form(loaded: LoadedCalculator, trusted: TrustedKeys, pdf: bytes,
           screenshot: Path | None) -> list[str]:
     """Build the form window offscreen, type the first vector, draw it and grab it."""
@@ -240,8 +236,9 @@ def _form(loaded: LoadedCalculator, trusted: TrustedKeys, pdf: bytes,
         if loaded.path is None or not window.open_path(loaded.path):
             raise SelftestError("the form refused the self-test calculator")
         vector = loaded.calculator.test_vectors[0]
-        for input_id, value in vector.values.items():
-            window.set_value(input_id, _typed(value))
+        for input_id, value in vector.values.items():  # typed or chosen as a user would
+            typed = ("yes" if value else "no") if isinstance(value, bool) else str(value)
+            window.set_value(input_id, typed)
         window.show()
         window.settle()
         risk = window.session.result().risk if window.session else None
@@ -309,12 +306,8 @@ def run_selftest(calculator: Path, key: Path, *, gui: bool = True,
                  out: Callable[[str], None] = print) -> None:
     """Check the program end to end; raise :class:`SelftestError` on the first failure.
 
-    Only ``key`` is trusted (the user's own list is not read). Steps: load and
-    verify the signed calculator; recompute its test vectors through
-    ``ClinicSession``; score a spline basis; make the risk sheet in memory; build the form window,
-    type a vector, draw and grab it; render the sheet with QtPdf; inside the
-    build, prove the authoring side and heavy libraries are absent and (when
-    ``guarded``) that the network guard refuses a connection.
+    Only ``key`` is trusted (the user's own list is not read). The steps are the
+    functions above, in order; the last runs inside the build only.
     """
     trusted = TrustedKeys(directory=key.parent / "no-user-keys-in-selftest",
                           extra_files=(key,))
