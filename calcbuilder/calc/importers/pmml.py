@@ -102,7 +102,9 @@ def parse_pmml(data: bytes, source: str) -> Element:
     except ParseError as exc:
         raise ModelImportError(f"{source} is not well-formed XML ({exc})") from None
     except (LookupError, ValueError) as exc:  # e.g. an unknown encoding in the XML declaration
-        raise ModelImportError(f"{source} cannot be read as XML ({exc}); save it as UTF-8") from None
+        raise ModelImportError(
+            f"{source} cannot be read as XML ({exc}); save it as UTF-8"
+        ) from None
     return root
 
 
