@@ -229,8 +229,10 @@ class _NetBenefits:
         self._values = []
         for W in Ws:
             Wb = np.broadcast_to(W, R.shape)
-            self._values.append(np.array([
-                st.decision_curve(y, R[i], self.thresholds, weights=Wb[i]).model
+            ones = [bool(np.all(Wb[i] == 1.0)) for i in range(R.shape[0])]
+            self._values.append(np.array([  # unit weights: the faster unweighted path
+                st.decision_curve(y, R[i], self.thresholds,
+                                  weights=None if ones[i] else Wb[i]).model
                 for i in range(R.shape[0])]).reshape(R.shape[0], self.thresholds.size))
         self._R, self._Ws = R, [np.array(W) for W in Ws]
 
