@@ -17,10 +17,10 @@ from statsmodels.nonparametric.smoothers_lowess import lowess as sm_lowess
 from statsmodels.stats.proportion import proportion_confint
 
 from calcbuilder.calc.document import Calculator
+from calcbuilder.evidence._evidence_bands import add_scalar_bands
 from calcbuilder.evidence.metrics import (
     HISTOGRAM_EDGES,
     EvidenceError,
-    _add_scalar_bands,
     evidence_set,
     with_evidence_set,
 )
@@ -199,7 +199,7 @@ def test_interval_that_misses_its_estimate_is_not_stored() -> None:
     metrics = {k: {"value": 0.5} for k in ("brier", "scaled_brier", "ici", "e50", "e90", "emax")}
     scalars = np.tile(np.linspace(0.6, 0.9, 20)[:, None], (1, 6))
     notes: list[str] = []
-    _add_scalar_bands(metrics, scalars, notes)
+    add_scalar_bands(metrics, scalars, notes)
     assert "low" not in metrics["ici"]
     assert any(n.startswith("ici: bootstrap percentile interval") for n in notes)
 
