@@ -13,7 +13,7 @@ import re
 from collections.abc import Mapping
 from typing import Any
 
-from reportlab.platypus import Flowable, Paragraph, Spacer
+from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer
 
 from ..calc.canonical import SIGNATURE_KEY
 from ..calc.evidence_sets import EvidenceSet
@@ -146,7 +146,7 @@ def _nb_difference(ctx: Context, block: Mapping[str, Any]) -> list[Flowable]:
 def _comparison_story(ctx: Context, label: str, block: Mapping[str, Any]) -> list[Flowable]:
     st = ctx.st
     reference = str(block.get("reference") or "a reference model (not named)")
-    out: list[Flowable] = [Paragraph(f"{esc(label)}: compared with {esc(reference)}", st.h2)]
+    head: list[Flowable] = [Paragraph(f"{esc(label)}: compared with {esc(reference)}", st.h2)]
     facts = []
     if _is_number(block.get("n")):
         events = f", {integer(block['events'])} with the outcome" if _is_number(
@@ -159,11 +159,12 @@ def _comparison_story(ctx: Context, label: str, block: Mapping[str, Any]) -> lis
     if isinstance(cuts, list | tuple) and cuts:
         facts.append("Risk categories for the categorical NRI are cut at "
                      + ", ".join(percent(c) for c in cuts) + ".")
-    out += [Paragraph(" ".join(facts), st.small)] if facts else []
+    head += [Paragraph(" ".join(facts), st.small)] if facts else []
     groups = reclassification_groups(block)
     parts = [200, 70, 110, 60, 60]
     scale = ctx.width / sum(parts)
-    out.append(grid_table(_reclass_rows(ctx, groups), [p * scale for p in parts]))
+    out: list[Flowable] = [KeepTogether(
+        [*head, grid_table(_reclass_rows(ctx, groups), [p * scale for p in parts])])]
     out += _nb_difference(ctx, block)
     out += [Paragraph(line, st.grey) for line in _other_lines(block, groups)]
     if block.get("warnings"):
@@ -232,7 +233,7 @@ def sample_size_story(ctx: Context) -> list[Flowable]:
     recorded = _recorded(ctx)
     for ev, lines in recorded:
         verdict = _verdict(ev)
-        out += [Paragraph(esc(ev.label), st.h2), *bullets(lines, st.body)]
+        out += [KeepTogether([Paragraph(esc(ev.label), st.h2), *bullets(lines, st.body)])]
         out += [Paragraph(verdict, st.body)] if verdict else []
     if not recorded:
         out.append(Paragraph("No sample-size assessment is recorded in this calculator file's "
@@ -279,21 +280,21 @@ def _automatic_cautions(ctx: Context) -> list[str]:
 def limitations_story(ctx: Context) -> list[Flowable]:
     """The authors' cautions and exclusions, the evidence notes and our own checks."""
     st, calc = ctx.st, ctx.calc
-    out: list[Flowable] = [Paragraph("Cautions stated by the authors", st.h2)]
-    out += bullets([esc(c) for c in calc.cautions], st.body)
-    out.append(Paragraph("Not for use in", st.h2))
-    out += bullets([esc(e) for e in calc.about.exclusions] or ["No exclusions are stated."],
-                   st.body)
     notes = [f"{esc(ev.label)}: {esc(n)}" for ev in calc.evidence
              for n in ev.raw.get("notes") or ()]
-    out.append(Paragraph("Notes attached to the evidence", st.h2))
-    out += bullets(notes or ["No notes are attached to the evidence."], st.body)
-    out.append(Paragraph("Found while preparing this report", st.h2))
-    out += bullets(_automatic_cautions(ctx), st.body)
-    out.append(Spacer(1, 4))
-    return out + notice(["Every estimate from this calculator supports, and does not replace, "
-                         "clinical judgement, the patient's own values and local protocols."],
-                        ctx.width, st, strong=True)
+    parts = (("Cautions stated by the authors", [esc(c) for c in calc.cautions]),
+             ("Not for use in", [esc(e) for e in calc.about.exclusions]
+              or ["No exclusions are stated."]),
+             ("Notes attached to the evidence", notes or ["No notes are attached to the "
+                                                          "evidence."]))
+    out: list[Flowable] = [KeepTogether([Paragraph(title, st.h2), *bullets(lines, st.body)])
+                           for title, lines in parts]
+    closing = notice(["Every estimate from this calculator supports, and does not replace, "
+                      "clinical judgement, the patient's own values and local protocols."],
+                     ctx.width, st, strong=True)
+    return [*out, KeepTogether([Paragraph("Found while preparing this report", st.h2),
+                                *bullets(_automatic_cautions(ctx), st.body), Spacer(1, 4),
+                                *closing])]
 
 
 def signature_story(ctx: Context) -> list[Flowable]:

@@ -137,9 +137,10 @@ def covariance_story(calc: Calculator, st: ReportStyles, width: float) -> list[F
         rows: list[list[Flowable]] = [[Paragraph(h, st.cell_bold) for h in head]]
         for r in range(size):
             rows.append([Paragraph(names[r], st.cell_bold)]
-                        + [Paragraph(f"{cov[r][c]:.10g}", st.cell_mono)
+                        + [Paragraph(f"{cov[r][c]:.10g}", st.cell_tiny)
                            for c in range(start, stop)])
         label_w = 26
         col_w = min(72.0, (width - label_w) / _MATRIX_BLOCK)
-        out += [grid_table(rows, [label_w] + [col_w] * (stop - start)), Spacer(1, 6)]
+        out += [grid_table(rows, [label_w] + [col_w] * (stop - start), compact=True),
+                Spacer(1, 5)]
     return out

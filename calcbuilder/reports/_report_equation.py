@@ -174,7 +174,7 @@ def link_lines(model: ModelSpec) -> list[str]:
 
 def _recal_line(a: float, b: float) -> str:
     return (f"η′ = a + b · η with a = {exact(a)} and b = {exact(b)} "
-            "(recalibration, section on recalibration)")
+            "(recalibration; see the Recalibration section)")
 
 
 def equation_lines(calc: Calculator) -> list[str]:

@@ -33,7 +33,7 @@ from ._report_text import percent
 __all__ = ["calibration_story", "decision_story", "net_benefit_rows"]
 
 _DPI = 200
-_CAL_SIZE = (3.6, 4.4)  # inches: room for the histogram and a note under the axes
+_CAL_SIZE = (3.6, 4.15)  # inches: room for the histogram and a note under the axes
 
 
 def _image(fig: Any) -> Image:
@@ -129,6 +129,14 @@ def _curve_notes(ev: EvidenceSet, st: ReportStyles) -> list[Flowable]:
     return out
 
 
+def _with_block(out: list[Flowable], block: list[Flowable]) -> list[Flowable]:
+    """``out`` plus ``block`` kept on one page; the section's introduction (when ``out`` holds
+    only that) is kept with the first block."""
+    if len(out) == 1:
+        return [KeepTogether([*out, *block]), Spacer(1, 5)]
+    return [*out, KeepTogether(block), Spacer(1, 5)]
+
+
 def _failed(exc: Exception, st: ReportStyles) -> Paragraph:
     return Paragraph(f"This figure could not be drawn from the stored numbers: {esc(str(exc))}",
                      st.body)
@@ -155,8 +163,8 @@ def calibration_story(ctx: Context) -> list[Flowable]:
         left_w = _CAL_SIZE[0] * 72 + 4
         table = _grouped_table(ev, st, ctx.width - left_w - 8)
         table += _curve_notes(ev, st)
-        out += [KeepTogether([Paragraph(esc(ev.label), st.h2),
-                              _side_by_side(figure, table, left_w, ctx.width)]), Spacer(1, 4)]
+        block = [Paragraph(esc(ev.label), st.h2), _side_by_side(figure, table, left_w, ctx.width)]
+        out = _with_block(out, block)
     return out
 
 
@@ -245,6 +253,7 @@ def decision_story(ctx: Context) -> list[Flowable]:
             figure: Flowable = _image(fig)
         except PlotInputError as exc:
             figure = _failed(exc, st)
-        out += [KeepTogether([Paragraph(esc(ev.label), st.h2), figure, Spacer(1, 3),
-                              *_nb_table(ctx, ev, ctx.width)]), Spacer(1, 6)]
+        block = [Paragraph(esc(ev.label), st.h2), figure, Spacer(1, 3),
+                 *_nb_table(ctx, ev, ctx.width)]
+        out = _with_block(out, block)
     return out

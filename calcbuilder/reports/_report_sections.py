@@ -10,7 +10,7 @@ import contextlib
 import json
 
 from reportlab.lib import colors
-from reportlab.platypus import Flowable, Paragraph, Spacer, Table, TableStyle
+from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
 
 from .. import __version__
 from ..calc.evidence_sets import EvidenceSet
@@ -195,7 +195,7 @@ def _source_card(ctx: Context, ev: EvidenceSet) -> list[Flowable]:
         pairs.append(("Settings", settings))
     head = Paragraph(f"{esc(ev.label)} <font color='#555555'>(evidence set "
                      f"‘{esc(ev.id)}’)</font>", st.h2)
-    out: list[Flowable] = [head, facts_table(pairs, ctx.width, st)]
+    out: list[Flowable] = [KeepTogether([head, facts_table(pairs, ctx.width, st)])]
     for key, text in long:
         out += _long_setting(key, text, ctx)
     return out

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Any
 
 from reportlab.lib import colors
 from reportlab.lib.styles import ParagraphStyle
-from reportlab.platypus import Flowable, Paragraph, Spacer, Table, TableStyle
+from reportlab.platypus import CondPageBreak, Flowable, Paragraph, Spacer, Table, TableStyle
 
 from ._sheet_style import GREY, INK, PALE, esc
 from .fonts import FONT, FONT_BOLD, FONT_MONO, register_fonts
@@ -36,6 +36,7 @@ __all__ = [
     "heading",
     "notice",
     "para",
+    "subheading",
 ]
 
 RULE = colors.Color(0.55, 0.55, 0.55)
@@ -68,9 +69,9 @@ class ReportStyles:
         self.subtitle = ParagraphStyle("r-subtitle", base, fontSize=11, leading=14,
                                        textColor=GREY, spaceAfter=8)
         self.h1 = ParagraphStyle("r-h1", base, fontName=FONT_BOLD, fontSize=12.5, leading=15,
-                                 spaceBefore=12, spaceAfter=5, keepWithNext=1)
+                                 spaceBefore=12, spaceAfter=5)
         self.h2 = ParagraphStyle("r-h2", base, fontName=FONT_BOLD, fontSize=9.5, leading=12,
-                                 spaceBefore=7, spaceAfter=3, keepWithNext=1)
+                                 spaceBefore=7, spaceAfter=3)
         self.band = ParagraphStyle("r-band", base, fontName=FONT_BOLD, fontSize=10, leading=13,
                                    textColor=colors.white, spaceAfter=0)
         self.toc = ParagraphStyle("r-toc", base, fontSize=8.5, leading=11.5, spaceAfter=0)
@@ -109,6 +110,13 @@ def heading(number: str, text: str, style: ParagraphStyle, level: int = 0) -> Pa
     return out
 
 
+def subheading(text: str, st: ReportStyles, *, room: float = 110,
+               level: int = 1) -> list[Flowable]:
+    """A second-level heading that starts a new page when less than ``room`` points are left
+    (so it is never stranded at the foot of a page, and long tables still start under it)."""
+    return [CondPageBreak(room), heading("", text, st.h2, level=level)]
+
+
 def bullets(markups: Sequence[str], style: ParagraphStyle) -> list[Flowable]:
     """Bulleted paragraphs with a hanging indent (markup already escaped)."""
     hanging = ParagraphStyle(f"{style.name}-bullet", style, leftIndent=style.fontSize * 1.3,
@@ -117,19 +125,35 @@ def bullets(markups: Sequence[str], style: ParagraphStyle) -> list[Flowable]:
     return [Paragraph(markup, hanging, bulletText="•") for markup in markups]
 
 
+class _RuledTable(Table):
+    """A table that splits across pages only with at least a few rows on each side."""
+
+    MIN_FIRST, MIN_LAST = 3, 2
+
+    def split(self, availWidth: float, availHeight: float) -> list[Flowable]:
+        parts = super().split(availWidth, availHeight)
+        if len(parts) == 2:
+            head = self.repeatRows if isinstance(self.repeatRows, int) else 0
+            first, last = (len(p._cellvalues) - head for p in parts)
+            if first < self.MIN_FIRST or last < self.MIN_LAST:
+                return []  # move the whole table on rather than leave a row or two behind
+        return list(parts)
+
+
 def grid_table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *,
                header_rows: int = 1, align_right: Sequence[int] = (),
-               zebra: bool = True) -> Table:
-    """A ruled table with a grey header row; repeats its header on a new page."""
-    table = Table([list(r) for r in rows], colWidths=list(widths), repeatRows=header_rows,
-                  hAlign="LEFT")
+               zebra: bool = True, compact: bool = False) -> Table:
+    """A ruled table with a grey header row; repeats its header on a new page and never
+    leaves fewer than three rows at the foot of a page or two at the top of the next."""
+    table = _RuledTable([list(r) for r in rows], colWidths=list(widths),
+                        repeatRows=header_rows, hAlign="LEFT")
     style: list[tuple[Any, ...]] = [
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LINEBELOW", (0, 0), (-1, -1), 0.3, RULE),
         ("LINEABOVE", (0, 0), (-1, 0), 0.8, INK),
         ("LINEBELOW", (0, -1), (-1, -1), 0.8, INK),
-        ("TOPPADDING", (0, 0), (-1, -1), 1.6),
-        ("BOTTOMPADDING", (0, 0), (-1, -1), 2.2),
+        ("TOPPADDING", (0, 0), (-1, -1), 0.6 if compact else 1.6),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 1.2 if compact else 2.2),
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
         ("RIGHTPADDING", (0, 0), (-1, -1), 3),
     ]

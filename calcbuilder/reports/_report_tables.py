@@ -16,7 +16,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from reportlab.platypus import Flowable, Paragraph, Spacer
+from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer
 
 from ..calc.evidence_sets import EvidenceSet
 from ._report_style import Context, ReportStyles, esc, grid_table
@@ -105,8 +105,9 @@ def _sets_story(ctx: Context, kind: str, none_text: str) -> list[Flowable]:
         return [Paragraph(none_text, ctx.st.body)]
     out: list[Flowable] = []
     for ev in sets:
-        out += [Paragraph(esc(ev.label), ctx.st.h2), _dataset_line(ev, ctx.st),
-                metrics_table(ev, ctx.st, ctx.width), Spacer(1, 2), *_notes(ev, ctx.st)]
+        out += [KeepTogether([Paragraph(esc(ev.label), ctx.st.h2), _dataset_line(ev, ctx.st),
+                              metrics_table(ev, ctx.st, ctx.width)]),
+                Spacer(1, 2), *_notes(ev, ctx.st)]
     return out
 
 
@@ -202,9 +203,9 @@ def bootstrap_story(ctx: Context) -> list[Flowable]:
                                 "apparent performance has not been corrected for optimism.",
                                 st.body)]
     for ev in sets:
-        out += [Paragraph(esc(ev.label), st.h2), _dataset_line(ev, st),
-                Paragraph(_resampling_line(ev), st.small), *_bootstrap_table(ctx, ev),
-                *_notes(ev, st)]
+        out += [KeepTogether([Paragraph(esc(ev.label), st.h2), _dataset_line(ev, st),
+                              Paragraph(_resampling_line(ev), st.small),
+                              *_bootstrap_table(ctx, ev)]), *_notes(ev, st)]
     return out
 
 
@@ -275,6 +276,6 @@ def recalibration_story(ctx: Context) -> list[Flowable]:
         return [*out, Paragraph("No evidence of performance after recalibration is attached.",
                                 st.body)]
     for ev in after_sets:
-        out += [Paragraph(esc(ev.label), st.h2), *_before_after(ctx, ev), Spacer(1, 2),
-                *_notes(ev, st)]
+        out += [KeepTogether([Paragraph(esc(ev.label), st.h2), *_before_after(ctx, ev)]),
+                Spacer(1, 2), *_notes(ev, st)]
     return out

@@ -57,7 +57,7 @@ from ._report_coefficients import coefficient_story, covariance_story
 from ._report_equation import equation_story
 from ._report_figures import calibration_story, decision_story
 from ._report_sections import data_story, inputs_story, scope_story, title_story
-from ._report_style import GREY, Context, ReportStyles, heading
+from ._report_style import GREY, Context, ReportStyles, heading, subheading
 from ._report_tables import (
     apparent_story,
     bootstrap_story,
@@ -90,9 +90,9 @@ def _covariance_in_appendix(ctx: Context) -> bool:
 
 def _model_story(ctx: Context) -> list[Flowable]:
     st = ctx.st
-    out = [*equation_story(ctx.calc, st), heading("", "Coefficients", st.h2, level=1),
+    out = [*equation_story(ctx.calc, st), *subheading("Coefficients", st),
            *coefficient_story(ctx.calc, st, ctx.width),
-           heading("", "Covariance matrix of the coefficients", st.h2, level=1)]
+           *subheading("Covariance matrix of the coefficients", st, room=60)]
     if _covariance_in_appendix(ctx):
         size = len(ctx.calc.model.covariance or ())
         return [*out, Paragraph(f"The {size} × {size} matrix is printed in the appendix at "
@@ -146,7 +146,10 @@ def _story(ctx: Context, sections: list[tuple[str, Story]]) -> list[Flowable]:
     out += [Spacer(1, 4), heading("", "Contents", st.h2, level=9), toc, PageBreak()]
     for number, (title, build) in enumerate(sections, start=1):
         body = build(ctx)
-        out.append(KeepTogether([heading(f"{number}.", title, st.h1), *body[:1]]))
+        first = body[:1]
+        if first and isinstance(first[0], KeepTogether):  # never nest: it forces a page break
+            first = list(first[0]._content)
+        out.append(KeepTogether([heading(f"{number}.", title, st.h1), *first]))
         out += body[1:]
     if _covariance_in_appendix(ctx):
         out += [PageBreak(), heading("A.", APPENDIX_TITLE, st.h1),
