@@ -26,6 +26,13 @@ the whole calculator validates):
    calcbuilder version, fitting method, events per parameter, Riley numbers);
 6. :meth:`Calculator.from_dict` (schema, meaning, test vectors re-scored), then
    an atomic write.
+
+References
+----------
+.. [1] McCullagh P, Nelder JA. Generalized Linear Models, 2nd ed. Chapman & Hall 1989, ch. 4.
+.. [2] Firth D. Bias reduction of maximum likelihood estimates. Biometrika 1993;80:27-38.
+.. [3] Riley RD, Ensor J, Snell KIE, et al. Calculating the sample size required for
+       developing a clinical prediction model. BMJ 2020;368:m441.
 """
 
 from __future__ import annotations

@@ -18,6 +18,11 @@ set of kind ``imported`` with its stated ``source``:
   and non-events of the dataset.
 
 Every problem is reported at once (CSV: with its row number, header = row 1).
+
+References
+----------
+.. [1] Vickers AJ, Elkin EB. Decision curve analysis: a novel method for evaluating
+       prediction models. Med Decis Making 2006;26:565-574 (net benefit of treating all).
 """
 
 from __future__ import annotations

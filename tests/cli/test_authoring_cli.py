@@ -200,6 +200,26 @@ def test_ctrl_c_during_the_bootstrap_writes_nothing(
     assert not list(demo["tmp"].glob(".*.tmp"))
 
 
+def test_ctrl_c_during_fit_writes_nothing(demo: dict[str, Path], monkeypatch: pytest.MonkeyPatch,
+                                          capsys: pytest.CaptureFixture[str]) -> None:
+    @contextlib.contextmanager
+    def pressing_ctrl_c(description: str, *, enabled: bool | None = None) -> Iterator[Any]:
+        del description, enabled
+
+        def callback(done: int, _total: int) -> bool:
+            raise KeyboardInterrupt
+
+        yield callback
+
+    monkeypatch.setattr(authoring, "progress_bar", pressing_ctrl_c)
+    out_file = demo["tmp"] / "interrupted-fit.calc.json"
+    code, out, err = run(capsys, "fit", demo["dev"], "--recipe", EXAMPLE, "-o", out_file)
+    assert code == 1
+    assert "calcbuilder fit: interrupted; nothing was written" in err
+    assert out == ""
+    assert not out_file.exists()
+
+
 def test_import_evidence_command(demo: dict[str, Path], tmp_path: Path,
                                  capsys: pytest.CaptureFixture[str]) -> None:
     summary = {"label": "Published", "source": "Example et al. (test)",
