@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from reportlab.platypus import Flowable, Paragraph
+from reportlab.platypus import Flowable, KeepTogether, Paragraph
 
 from ..calc.document import Calculator
 from ..calc.model import (
@@ -269,11 +269,11 @@ def definition_lines(model: ModelSpec) -> list[str]:
 def equation_story(calc: Calculator, st: ReportStyles) -> list[Flowable]:
     """The risk formula, the linear predictor and the definitions as paragraphs."""
     out: list[Flowable] = [Paragraph(line, st.equation) for line in link_lines(calc.model)]
-    out.append(Paragraph("The linear predictor, column by column:", st.body))
-    out += [Paragraph(line, st.equation) for line in equation_lines(calc)]
-    out.append(Paragraph("Definitions:", st.body))
-    defs = definition_lines(calc.model)
-    out += bullets(defs, st.formula)
+    lines = [Paragraph(line, st.equation) for line in equation_lines(calc)]
+    out += [KeepTogether([Paragraph("The linear predictor, column by column:", st.body),
+                          *lines[:2]]), *lines[2:]]
+    defs = bullets(definition_lines(calc.model), st.formula)
+    out += [KeepTogether([Paragraph("Definitions:", st.body), *defs[:1]]), *defs[1:]]
     if any(isinstance(t.transform, Rcs) for t in calc.model.terms):
         out.append(Paragraph(RCS_GENERAL, st.formula))
     return out

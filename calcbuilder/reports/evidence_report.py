@@ -32,6 +32,7 @@ from reportlab.lib.units import mm
 from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import (
     BaseDocTemplate,
+    CondPageBreak,
     Flowable,
     Frame,
     KeepTogether,
@@ -76,6 +77,7 @@ PAGE_SIZES = {"A4": A4, "Letter": LETTER}
 Page = Literal["A4", "Letter"]
 Story = Callable[[Context], list[Flowable]]
 _MARGIN = 16 * mm
+_SECTION_ROOM = 150  # points: a section starts on a new page when less is left
 _BAND = 7 * mm
 
 
@@ -149,7 +151,8 @@ def _story(ctx: Context, sections: list[tuple[str, Story]]) -> list[Flowable]:
         first = body[:1]
         if first and isinstance(first[0], KeepTogether):  # never nest: it forces a page break
             first = list(first[0]._content)
-        out.append(KeepTogether([heading(f"{number}.", title, st.h1), *first]))
+        out += [CondPageBreak(_SECTION_ROOM),
+                KeepTogether([heading(f"{number}.", title, st.h1), *first])]
         out += body[1:]
     if _covariance_in_appendix(ctx):
         out += [PageBreak(), heading("A.", APPENDIX_TITLE, st.h1),
