@@ -130,25 +130,38 @@ def collected_sources(manifest: dict[str, list[list[str]]]) -> list[tuple[str, P
     return out
 
 
+def _spellings(path: Path) -> set[str]:
+    """The names dpkg may know a library by (as found, resolved, with or without /usr)."""
+    names = {str(path), str(path.resolve())}
+    for text in list(names):
+        names.add(text[4:] if text.startswith("/usr/lib/") else "/usr" + text)
+    return names
+
+
 def debian_packages(paths: list[Path]) -> dict[Path, tuple[str, str]]:
-    """``dpkg -S`` owner and version of system files (empty where dpkg is missing)."""
+    """Debian package and version owning each system file (one ``dpkg -S`` call).
+
+    Files dpkg does not know are left out; without dpkg the result is empty.
+    """
     if not paths or shutil.which("dpkg") is None:
         return {}
-    found: dict[Path, tuple[str, str]] = {}
-    for path in paths:
-        alternatives = {str(path), str(path.resolve())}
-        for text in list(alternatives):  # merged /usr: dpkg may know either spelling
-            alternatives.add(text[4:] if text.startswith("/usr/lib/") else "/usr" + text)
-        for candidate in sorted(alternatives):
-            done = subprocess.run(["dpkg", "-S", candidate], capture_output=True, text=True,
-                                  check=False)
-            if done.returncode == 0 and done.stdout:
-                package = done.stdout.split(":")[0].strip()
-                version = subprocess.run(["dpkg-query", "-W", "-f=${Version}", package],
-                                         capture_output=True, text=True, check=False).stdout
-                found[path] = (package, version.strip() or "unknown")
-                break
-    return found
+    spellings = {path: _spellings(path) for path in paths}
+    names = sorted(set().union(*spellings.values()))
+    listed = subprocess.run(["dpkg", "-S", *names], capture_output=True, text=True,
+                            check=False).stdout
+    owner: dict[str, str] = {}
+    for line in listed.splitlines():  # "pkg[:arch][, pkg2]: /path"
+        packages, sep, where = line.partition(": ")
+        if sep and not line.startswith("diversion"):
+            owner[where.strip()] = packages.split(",")[0].split(":")[0].strip()
+    found = {path: next((owner[n] for n in sorted(spellings[path]) if n in owner), "")
+             for path in paths}
+    wanted = sorted({package for package in found.values() if package})
+    queried = subprocess.run(["dpkg-query", "-W", "-f=${Package} ${Version}\n", *wanted],
+                             capture_output=True, text=True, check=False).stdout
+    versions = dict(line.split(" ", 1) for line in queried.splitlines() if " " in line)
+    return {path: (package, versions.get(package, "unknown"))
+            for path, package in found.items() if package}
 
 
 def _system_libraries(system: list[Path], components: dict[str, Component]) -> None:
