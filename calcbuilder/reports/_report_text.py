@@ -30,6 +30,7 @@ __all__ = [
     "SYNTHETIC_MARK",
     "exact",
     "integer",
+    "interval_text",
     "metric_label",
     "metric_number",
     "percent",

@@ -31,7 +31,7 @@ from calcbuilder.calc.signing import sign_document
 from calcbuilder.evidence.compare import compare_risks, reclassification_block
 from calcbuilder.evidence.metrics import evidence_set
 
-__all__ = ["independent_risk", "rich_document", "write_rich"]
+__all__ = ["independent_risk", "rich_document", "signed_calculator", "write_rich"]
 
 KNOTS = (68.0, 74.0, 79.0, 88.0)
 TRUNC = (65.0, 95.0)
@@ -313,3 +313,16 @@ def write_rich(folder: str | Path, name: str = "rich.calc.json", **kwargs: Any) 
     path = Path(folder) / name
     path.write_text(json.dumps(rich_document(**kwargs), ensure_ascii=False), "utf-8")
     return path
+
+
+def signed_calculator(folder: Path) -> tuple[Path, Path]:
+    """A signed calculator from ``tests/fixtures_calc.py`` and its public key file."""
+    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
+
+    from calcbuilder.calc.keys import save_key_pair
+    from tests.fixtures_calc import write_calculator
+
+    key = Ed25519PrivateKey.generate()
+    save_key_pair(Path(folder) / "keys", "unit", key, passphrase=None)
+    return (write_calculator(folder, "signed.calc.json", signed=True, key=key),
+            Path(folder) / "keys" / "unit.pub")

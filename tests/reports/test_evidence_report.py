@@ -1,4 +1,4 @@
-"""The evidence report: every section, every number needed to re-implement, markers, CLI.
+"""The evidence report: every section, every number needed to re-implement, markers.
 
 The calculators are SYNTHETIC (``tests/reports/report_fixtures.py`` and
 ``tests/fixtures_calc.py``). Text is read back with pypdf and whitespace is
@@ -18,13 +18,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 from pypdf import PdfReader
 
 from calcbuilder.calc.document import load_calculator
-from calcbuilder.calc.keys import TrustedKeys, save_key_pair
+from calcbuilder.calc.keys import TrustedKeys
 from calcbuilder.calc.scoring import score
-from calcbuilder.cli import main
 from calcbuilder.errors import CalcbuilderError, SignatureError
 from calcbuilder.reports._report_closing import RECLASSIFICATION_CAUTION, reclassification_groups
 from calcbuilder.reports._report_text import exact, metric_label, metric_number
@@ -42,6 +40,7 @@ from tests.reports.report_fixtures import (
     cohort,
     independent_risk,
     rich_document,
+    signed_calculator,
     write_rich,
 )
 
@@ -306,15 +305,8 @@ def test_simple_fixture_without_grouped_curve(tmp_path):
     assert APPENDIX_TITLE in text
 
 
-def _signed(tmp_path: Path) -> tuple[Path, Path]:
-    key = Ed25519PrivateKey.generate()
-    save_key_pair(tmp_path / "keys", "unit", key, passphrase=None)
-    return (write_calculator(tmp_path, "signed.calc.json", signed=True, key=key),
-            tmp_path / "keys" / "unit.pub")
-
-
 def test_signature_states(tmp_path):
-    path, pub = _signed(tmp_path)
+    path, pub = signed_calculator(tmp_path)
     verified = load_calculator(path, trusted=TrustedKeys(extra_files=(pub,)))
     text = " ".join(pages_text(report_bytes(verified, generated_at=WHEN)[0]))
     assert "Signed and verified" in text
@@ -326,7 +318,7 @@ def test_signature_states(tmp_path):
 
 
 def test_tampered_file_gets_no_report_and_nothing_is_written(tmp_path):
-    path, _ = _signed(tmp_path)
+    path, _ = signed_calculator(tmp_path)
     doc = json.loads(path.read_text("utf-8"))
     doc["about"]["population"] = "someone else"
     path.write_text(json.dumps(doc), "utf-8")
@@ -354,65 +346,6 @@ def test_pages_render_to_png(tmp_path, logistic):
     pdf.write_bytes(logistic[0])
     subprocess.run(["pdftoppm", "-r", "30", "-png", str(pdf), str(tmp_path / "p")], check=True)
     assert len(list(tmp_path.glob("p-*.png"))) == len(logistic[1])
-
-
-# --- command line ------------------------------------------------------------------------
-
-
-def run(capsys, *argv) -> tuple[int, str, str]:
-    code = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
-
-
-def test_cli_report_ok_and_json(tmp_path, capsys):
-    path, pub = _signed(tmp_path)
-    out = tmp_path / "out.pdf"
-    code, stdout, _ = run(capsys, "report", path, "-o", out, "--trust", pub, "--json")
-    assert code == 0
-    info = json.loads(stdout)
-    assert info["state"] == "verified"
-    assert info["pages"] == len(PdfReader(out).pages)
-    assert info["sections"] == list(SECTION_TITLES)
-    code, stdout, _ = run(capsys, "report", path, "-o", out, "--page", "Letter")
-    assert code == 0
-    assert "Evidence report written to" in stdout
-    assert "unknown signer" in stdout
-
-
-def test_cli_bad_file_exits_1_and_writes_nothing(tmp_path, capsys):
-    bad = tmp_path / "bad.calc.json"
-    bad.write_text("{not json", "utf-8")
-    out = tmp_path / "out.pdf"
-    code, _, err = run(capsys, "report", bad, "-o", out)
-    assert code == 1
-    assert "calcbuilder report: error:" in err
-    assert not out.exists()
-    doc = json.loads(write_calculator(tmp_path).read_text("utf-8"))
-    doc["model"]["intercept"] = -6.4  # the test vectors no longer reproduce
-    bad.write_text(json.dumps(doc), "utf-8")
-    code, _, err = run(capsys, "report", bad, "-o", out)
-    assert code == 1
-    assert "test vectors" in err
-    assert not out.exists()
-
-
-def test_cli_tampered_exits_1(tmp_path, capsys):
-    path, pub = _signed(tmp_path)
-    doc = json.loads(path.read_text("utf-8"))
-    doc["cautions"] = ["changed"]
-    path.write_text(json.dumps(doc), "utf-8")
-    out = tmp_path / "out.pdf"
-    code, _, err = run(capsys, "report", path, "-o", out, "--trust", pub)
-    assert code == 1
-    assert "does not verify" in err
-    assert not out.exists()
-
-
-def test_cli_usage_errors_exit_2(tmp_path, capsys):
-    assert run(capsys, "report")[0] == 2
-    assert run(capsys, "report", tmp_path / "x.calc.json")[0] == 2  # no -o
-    assert run(capsys, "report", tmp_path / "x", "-o", tmp_path / "o.pdf", "--page", "A5")[0] == 2
 
 
 def test_imported_evidence_null_band_points_and_expired(tmp_path):
