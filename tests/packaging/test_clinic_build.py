@@ -21,6 +21,7 @@ import os
 import shutil
 import subprocess
 import sys
+import tempfile
 import textwrap
 import time
 from pathlib import Path
@@ -52,7 +53,9 @@ def clinic_main() -> ModuleType:
 
 
 def run_python(code: str, *args: str, timeout: float = 120) -> subprocess.CompletedProcess[str]:
-    env = {**os.environ, "QT_QPA_PLATFORM": "offscreen", "PYTHONPATH": str(ROOT)}
+    env = {**os.environ, "QT_QPA_PLATFORM": "offscreen", "PYTHONPATH": str(ROOT),
+           # never the developer's own trusted keys
+           "CALCBUILDER_CONFIG_DIR": str(Path(tempfile.gettempdir()) / "calcbuilder-no-config")}
     return subprocess.run([sys.executable, "-c", textwrap.dedent(code), *args],
                           capture_output=True, text=True, env=env, cwd=ROOT,
                           timeout=timeout, check=False)
