@@ -60,15 +60,15 @@ def _row(st: ReportStyles, number: str, term: str, symbol: str, beta: float, *,
          se: float | None, ratio: str | None) -> list[Flowable]:
     ci = _ci(beta, se)
     return [Paragraph(number, st.cell), Paragraph(esc(term), st.cell),
-            Paragraph(symbol, st.cell), Paragraph(exact(beta), st.cell_mono),
-            Paragraph(_g(se), st.cell_mono),
-            Paragraph("—" if ci is None else f"{_g(ci[0])} to {_g(ci[1])}", st.cell_mono),
+            Paragraph(symbol, st.cell), Paragraph(exact(beta), st.cell_tiny),
+            Paragraph(_g(se), st.cell_tiny),
+            Paragraph("—" if ci is None else f"{_g(ci[0])} to {_g(ci[1])}", st.cell_tiny),
             Paragraph("—" if ratio is None else f"{_ratio(beta, ci)}<br/>"
                       f"<font color='#555555'>{ratio}</font>", st.cell)]
 
 
 def _widths(width: float) -> list[float]:
-    parts = [18, 66, 92, 94, 34, 108, 103]
+    parts = [16, 60, 90, 92, 46, 100, 111]
     scale = width / sum(parts)
     return [p * scale for p in parts]
 

@@ -173,6 +173,9 @@ def link_lines(model: ModelSpec) -> list[str]:
 
 
 def _recal_line(a: float, b: float) -> str:
+    if b == 1:
+        return (f"η′ = a + η with a = {exact(a)} (recalibration in the large, slope 1; see "
+                "the Recalibration section)")
     return (f"η′ = a + b · η with a = {exact(a)} and b = {exact(b)} "
             "(recalibration; see the Recalibration section)")
 

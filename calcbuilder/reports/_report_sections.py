@@ -113,6 +113,12 @@ def _decision_lines(ctx: Context) -> list[str]:
     return lines
 
 
+def _sentence(text: str) -> str:
+    """``text`` escaped, with a full stop unless it already ends with one."""
+    text = text.strip()
+    return esc(text if text.endswith((".", "!", "?")) else text + ".")
+
+
 def _model_sentence(ctx: Context, family: str) -> str:
     model = ctx.calc.model
     plus = " plus an intercept" if model.family == "logistic" else ""
@@ -128,10 +134,10 @@ def scope_story(ctx: Context) -> list[Flowable]:
     family = ("logistic regression" if model.family == "logistic" else
               "survival model evaluated at a fixed horizon (complementary log-log link)")
     out: list[Flowable] = [
-        Paragraph(f"<b>Intended use.</b> {esc(about.intended_use)}", st.body),
-        Paragraph(f"<b>Population.</b> {esc(about.population)}", st.body),
-        Paragraph(f"<b>Outcome and horizon.</b> {esc(about.outcome)}, {esc(about.horizon)}.",
-                  st.body),
+        Paragraph(f"<b>Intended use.</b> {_sentence(about.intended_use)}", st.body),
+        Paragraph(f"<b>Population.</b> {_sentence(about.population)}", st.body),
+        Paragraph(f"<b>Outcome.</b> {_sentence(about.outcome)} <b>Prediction horizon.</b> "
+                  f"{_sentence(about.horizon)}", st.body),
         Paragraph(_model_sentence(ctx, family), st.body),
         Paragraph("<b>Not for use</b> (exclusions stated by the authors):", st.body)]
     out += bullets([esc(e) for e in about.exclusions] or ["No exclusions are stated."], st.body)

@@ -130,14 +130,27 @@ class _RuledTable(Table):
 
     MIN_FIRST, MIN_LAST = 3, 2
 
+    def _counts(self, parts: list[Flowable]) -> tuple[int, int]:
+        head = self.repeatRows if isinstance(self.repeatRows, int) else 0
+        first, last = (len(p._cellvalues) - head for p in parts)
+        return first, last
+
     def split(self, availWidth: float, availHeight: float) -> list[Flowable]:
-        parts = super().split(availWidth, availHeight)
-        if len(parts) == 2:
+        parts = list(super().split(availWidth, availHeight))
+        if len(parts) != 2:
+            return parts
+        first, last = self._counts(parts)
+        if last < self.MIN_LAST:  # carry rows over so the next page does not start with one
             head = self.repeatRows if isinstance(self.repeatRows, int) else 0
-            first, last = (len(p._cellvalues) - head for p in parts)
-            if first < self.MIN_FIRST or last < self.MIN_LAST:
-                return []  # move the whole table on rather than leave a row or two behind
-        return list(parts)
+            end = head + first
+            cut = sum(self._rowHeights[end - (self.MIN_LAST - last):end])
+            parts = list(super().split(availWidth, availHeight - cut))
+            if len(parts) != 2:
+                return []
+            first, last = self._counts(parts)
+        if first < self.MIN_FIRST or last < self.MIN_LAST:
+            return []  # move the whole table on rather than leave a row or two behind
+        return parts
 
 
 def grid_table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *,
