@@ -372,3 +372,15 @@ def test_imported_evidence_null_band_points_and_expired(tmp_path):
     assert "drawn where its 95% band could be estimated: 197 of the 200" in text
     assert "PASSED" in text
     assert "The review-by date (2028-01-15) has passed." in text
+
+
+def test_intercept_only_recalibration_line(tmp_path):
+    from dataclasses import replace
+
+    from calcbuilder.calc.model import Recalibration
+    from calcbuilder.reports._report_equation import link_lines
+
+    model = load_calculator(write_calculator(tmp_path)).calculator.model
+    lines = link_lines(replace(model, recalibration=Recalibration("intercept", 0.3125)))
+    assert "η′ = a + η with a = 0.3125 (recalibration in the large, slope 1" in lines[1]
+    assert lines[-1] == "risk = 1 / (1 + exp(−η′))"
