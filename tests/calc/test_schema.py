@@ -17,5 +17,6 @@ def test_published_schema_is_a_valid_draft_2020_12_schema():
 
 def test_published_schema_matches_its_fragments():
     """scripts/build_schema.py --check fails when a fragment changed without a rebuild."""
-    done = subprocess.run([sys.executable, str(ROOT / "scripts" / "build_schema.py"), "--check"])
+    script = ROOT / "scripts" / "build_schema.py"
+    done = subprocess.run([sys.executable, str(script), "--check"], check=False)
     assert done.returncode == 0, "run: python scripts/build_schema.py"
