@@ -33,16 +33,10 @@ _PUBLIC: dict[str, tuple[str, ...]] = {
     "discrimination": (
         "AUCComparison",
         "AUCEstimate",
-        "Classification",
         "IntervalNotEstimableWarning",
-        "ROCPoints",
-        "YoudenPoint",
         "auc",
         "auc_ci",
-        "classify",
         "compare_auc",
-        "roc_points",
-        "youden",
     ),
     "calibration": (
         "CalibrationCurve",
@@ -91,6 +85,14 @@ _PUBLIC: dict[str, tuple[str, ...]] = {
         "DEFAULT_KNOT_QUANTILES",
         "rcs_basis",
         "rcs_knots",
+    ),
+    "thresholds": (
+        "Classification",
+        "ROCPoints",
+        "YoudenPoint",
+        "classify",
+        "roc_points",
+        "youden",
     ),
     "resampling": (
         "BootstrapValidation",
@@ -163,16 +165,10 @@ if TYPE_CHECKING:
     from .discrimination import (
         AUCComparison,
         AUCEstimate,
-        Classification,
         IntervalNotEstimableWarning,
-        ROCPoints,
-        YoudenPoint,
         auc,
         auc_ci,
-        classify,
         compare_auc,
-        roc_points,
-        youden,
     )
     from .logistic import (
         LogisticFit,
@@ -214,4 +210,12 @@ if TYPE_CHECKING:
         DEFAULT_KNOT_QUANTILES,
         rcs_basis,
         rcs_knots,
+    )
+    from .thresholds import (
+        Classification,
+        ROCPoints,
+        YoudenPoint,
+        classify,
+        roc_points,
+        youden,
     )
