@@ -51,7 +51,8 @@ SELFTEST_CALC = "selftest.calc.json"
 SELFTEST_KEY = "selftest-signer.pub"
 # Never part of the standalone build: authoring side and heavy statistics.
 FORBIDDEN_MODULES = ("pandas", "scipy", "statsmodels", "sklearn", "pytest",
-                     "calcbuilder.evidence", "calcbuilder.demo", "calcbuilder.cli")
+                     "calcbuilder.evidence", "calcbuilder.demo", "calcbuilder.cli",
+                     "calcbuilder.gui.authoring")
 NETWORK_EVENTS = frozenset({
     "socket.connect", "socket.getaddrinfo", "socket.gethostbyname", "socket.gethostbyaddr",
     "socket.sendto", "socket.sendmsg", "urllib.Request", "http.client.connect",

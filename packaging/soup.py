@@ -37,7 +37,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 OURS = "calcbuilder"
 FORBIDDEN = ("pandas", "scipy", "statsmodels", "scikit-learn", "pytest", "patsy", "formulaic")
-FORBIDDEN_MODULES = ("calcbuilder.evidence", "calcbuilder.demo", "calcbuilder.cli")
+FORBIDDEN_MODULES = ("calcbuilder.evidence", "calcbuilder.demo", "calcbuilder.cli",
+                     "calcbuilder.gui.authoring")
 PURPOSES = {
     "numpy": "array arithmetic: scoring, intervals, input checks",
     "matplotlib": "figures on the form and the risk sheet (icon array, curves)",
