@@ -279,7 +279,7 @@ def _publishable(calc: Calculator, block: dict[str, Any]) -> Calculator:
     payload["about"]["population"] = (
         "Adults aged 65 or over having elective hip or knee replacement at Demo Hospital B "
         "(synthetic); developed on the synthetic Demo Hospital A cohort and recalibrated "
-        "(intercept) for Hospital B.")
+        "(intercept) for Hospital B")
     return Calculator.from_dict(payload)
 
 

@@ -87,9 +87,9 @@ def _about(released: dt.date) -> dict[str, Any]:
                         "calcbuilder demo can compare a new model with it; synthetic, not for "
                         "clinical use.",
         "population": "Adults aged 65 or over having elective hip or knee replacement "
-                      "(synthetic).",
-        "outcome": "Delirium within 7 days after surgery.",
-        "horizon": "7 days after surgery",
+                      "(synthetic)",
+        "outcome": "delirium",
+        "horizon": "within 7 days after surgery",
         "exclusions": ["Not for use in any real patient: the model is invented."],
         "authors": ["calcbuilder demo"],
         "organisation": "calcbuilder (synthetic demonstration)",
