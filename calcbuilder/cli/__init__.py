@@ -16,7 +16,7 @@ from .. import __version__
 
 # Modules under calcbuilder.cli that register commands, in --help order.
 COMMAND_MODULES = ("calcfile", "keys", "importing", "clinic", "form", "updating", "authoring",
-                   "reporting", "demo")
+                   "reporting", "demo", "author")
 
 EXIT_OK, EXIT_FAILED, EXIT_USAGE = 0, 1, 2
 
