@@ -16,10 +16,10 @@ import argparse
 import json
 import os
 import sys
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
-
-from .progress import progress_bar
 
 __all__ = ["display_available", "register"]
 
@@ -84,15 +84,14 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     if args.seed < 0:
         return _usage(f"--seed must be 0 or more; got {args.seed}")
     err = Console(stderr=True, highlight=False)
-    quiet = args.json or not sys.stderr.isatty()
-
-    def step(text: str) -> None:
-        if not quiet:
-            err.print(f"[dim]- {text}[/dim]")
-
-    with progress_bar("Bootstrap", enabled=False if quiet else None, console=err) as bar:
-        result = run_demo(args.out, seed=args.seed, n_boot=args.bootstrap, progress=bar,
-                          step=step)
+    try:
+        with _live(err, enabled=not args.json and sys.stderr.isatty()) as (step, progress):
+            result = run_demo(args.out, seed=args.seed, n_boot=args.bootstrap,
+                              progress=progress, step=step)
+    except KeyboardInterrupt:
+        print(f"calcbuilder demo: interrupted; the files already in {args.out} are an "
+              "incomplete demo: run it again to replace them", file=sys.stderr)
+        return 1
     if args.json:
         print(json.dumps(result.to_dict(), ensure_ascii=False, indent=2, allow_nan=False))
     else:
@@ -100,6 +99,32 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     if not args.no_window and display_available():
         return _open_form(result)
     return 0
+
+
+@contextmanager
+def _live(console: Any, *, enabled: bool
+          ) -> Iterator[tuple[Callable[[str], None], Callable[[int, int], bool] | None]]:
+    """Step lines and a bar (current step; resamples during the bootstrap) on a terminal."""
+    if not enabled:
+        yield (lambda _text: None), None
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+               TimeElapsedColumn())
+    with Progress(*columns, console=console, transient=True) as bar:
+        tasks = [bar.add_task("calcbuilder demo", total=None)]
+
+        def step(text: str) -> None:  # a fresh task per step: no count until one is known
+            bar.console.print(f"[dim]- {text}[/dim]")
+            bar.remove_task(tasks.pop())
+            tasks.append(bar.add_task(text[:48], total=None))
+
+        def progress(done: int, total: int) -> bool:
+            bar.update(tasks[-1], completed=done, total=total)
+            return True
+
+        yield step, progress
 
 
 def _short(fp: str | None) -> str:

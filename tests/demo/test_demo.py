@@ -269,3 +269,16 @@ def test_default_run_without_display_prints_the_summary(tmp_path, monkeypatch):
     calc = load_calculator(tmp_path / "out" / "demo.calc.json")
     assert f"fp {calc.fingerprint[:12]}" in out
     assert calc.calculator.evidence[1].raw["settings"]["bootstrap"] == 200
+
+
+def test_interrupt_says_the_output_is_incomplete(tmp_path, capsys, monkeypatch):
+    from calcbuilder.demo import pipeline
+
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(pipeline, "run_demo", interrupted)
+    assert main(["demo", "--no-window", "--out", str(tmp_path / "out")]) == 1
+    err = capsys.readouterr().err
+    assert "interrupted" in err
+    assert "incomplete demo" in err
