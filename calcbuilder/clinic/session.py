@@ -184,7 +184,7 @@ def _number_text(spec: InputSpec, value: float, unit: str | None, comma: bool | 
         return format_significant(v, 6, decimal_comma=comma)
 
     conv = spec.unit_named(unit)
-    base = f"{canonical_text(value)} {spec.unit}".strip()
+    base = f"{canonical_text(value)} {spec.unit or ''}".strip()
     if conv is None or conv.is_identity:
         return base
     entered = format_significant(conv.from_canonical(value), 10, decimal_comma=comma)

@@ -47,7 +47,8 @@ ABOUT_KEYS = (*ABOUT_TEXTS, "version", "exclusions", "authors", "organisation", 
               "released", "review_by", "references", "synthetic")
 DEVELOPED_RANGES = ("observed", "p01-p99")
 _SEMVER = re.compile(r"(0|[1-9][0-9]*)\.(0|[1-9][0-9]*)\.(0|[1-9][0-9]*)")
-CAUTIONS_FILE = Path(__file__).resolve().parents[2] / "templates" / "cautions.toml"
+# shipped inside the package (the top-level templates/ folder links here)
+CAUTIONS_FILE = Path(__file__).resolve().parents[1] / "templates" / "cautions.toml"
 
 
 @dataclass(frozen=True)
