@@ -23,6 +23,7 @@ Module-level imports: standard library, numpy and calcbuilder.calc only
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any, NamedTuple
 
@@ -39,6 +40,7 @@ from ..calc.scoring import score
 from ..calc.signing import TrustState
 from ..errors import InputValueError
 from .benefit import NetBenefit, net_benefit_at
+from .reference import reference_contributions
 from .threshold import Threshold, format_percent
 
 __all__ = [
@@ -85,7 +87,9 @@ class PatientResult:
     interval_note : str or None
         How the interval was made.
     contributions : tuple of Contribution
-        Sorted by absolute value, largest first (ties keep the input order).
+        Each input's contribution to the linear predictor compared with the
+        reference patient (:mod:`calcbuilder.clinic.reference`), sorted by
+        absolute value, largest first (ties keep the input order).
     frequency : (int, int) or None
         ``(N, denominator)``, see the module notes.
     phrase : str or None
@@ -226,6 +230,7 @@ class ClinicSession:
         self._result: PatientResult | None = None
         self._benefit: NetBenefit | None = None
         self._cohort = _development_histogram(loaded.calculator.evidence)
+        self._reference: Mapping[str, float] | None = None
 
     # --- the calculator ----------------------------------------------------------
 
@@ -374,7 +379,11 @@ class ClinicSession:
         )
 
     def _contributions(self, raw: dict[str, float]) -> tuple[Contribution, ...]:
-        items = [Contribution(spec.id, spec.label, raw[spec.id])
+        """Contributions compared with the reference patient (see :mod:`.reference`)."""
+        if self._reference is None:
+            self._reference = reference_contributions(self.calculator)
+        ref = self._reference
+        items = [Contribution(spec.id, spec.label, raw[spec.id] - ref.get(spec.id, 0.0))
                  for spec in self.inputs if spec.id in raw]
         return tuple(sorted(items, key=lambda c: -abs(c.value)))
 

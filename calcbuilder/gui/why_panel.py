@@ -78,16 +78,14 @@ class WhyPanel(QWidget):
         box.addStretch(1)
 
     def _intro(self) -> str:
-        model = self._session.calculator.model
-        if model.family == "logistic":
-            intercept = f"{model.intercept or 0.0:.2f}".replace("-", "−")
-            start = (f"The model starts from {intercept} on the log-odds scale; each value "
-                     "below adds to it or takes away.")
-        else:
-            start = ("Each value below moves the estimate away from that of a patient with "
-                     "the average values of the development data (log hazard scale).")
-        return (f"{start} Larger numbers move the estimate more. A contribution is not a "
-                "cause: it only shows how the model's arithmetic arrived at this estimate.")
+        scale = ("log-odds" if self._session.calculator.model.family == "logistic"
+                 else "log hazard")
+        return ("Each value below is compared with a reference patient: numbers at the middle "
+                "of the range the model was developed on, 'no' for yes/no questions and the "
+                "reference category for choices. A positive number means this patient's value "
+                f"raises the estimate compared with the reference value ({scale} scale); "
+                "larger numbers move it more. A contribution is not a cause: it only shows "
+                "how the model's arithmetic arrived at this estimate.")
 
     def _toggle_equation(self, shown: bool) -> None:
         if shown and not self.equation.toPlainText():

@@ -16,6 +16,7 @@ from calcbuilder.calc.keys import TrustedKeys, generate_private_key, save_key_pa
 from calcbuilder.calc.messages import CODES
 from calcbuilder.calc.scoring import score
 from calcbuilder.calc.signing import TrustState
+from calcbuilder.clinic.reference import reference_values
 from calcbuilder.clinic.session import (
     SYNTHETIC_NOTICE,
     ClinicSession,
@@ -45,8 +46,14 @@ def test_risk_equals_score_directly(tmp_path, n_inputs):
     assert result.risk == pytest.approx(float(direct.risk[0]), abs=1e-15)
     assert (result.low, result.high) == pytest.approx((direct.low[0], direct.high[0]), abs=1e-15)
     assert result.interval_note == direct.interval_note
+    # contributions are shown against the reference patient (clinic/reference.py)
+    ref = score(session.calculator.model,
+                {k: [v] for k, v in reference_values(session.calculator).items()})
     by_id = {c.input_id: c.value for c in result.contributions}
-    assert by_id == pytest.approx({k: float(v[0]) for k, v in direct.contributions.items()})
+    assert by_id == pytest.approx({k: float(v[0] - ref.contributions[k][0])
+                                   for k, v in direct.contributions.items()})
+    assert sum(by_id.values()) == pytest.approx(
+        float(direct.linear_predictor[0] - ref.linear_predictor[0]))
     sizes = [abs(c.value) for c in result.contributions]
     assert sizes == sorted(sizes, reverse=True)
 
