@@ -16,11 +16,51 @@ from typing import Any
 
 from .problems import Problems, join
 
-__all__ = ["TRUST_ORDER", "EvidenceSet", "most_trustworthy", "parse_evidence"]
+__all__ = [
+    "METRIC_LABELS",
+    "TRUST_ORDER",
+    "EvidenceSet",
+    "metric_label",
+    "most_trustworthy",
+    "parse_evidence",
+]
 
 # Which evidence the clinic form prefers for net benefit at a threshold.
 TRUST_ORDER = ("external", "recalibrated", "bootstrap", "apparent", "imported")
 TREAT_ALL_TOLERANCE = 1e-6
+
+METRIC_LABELS: dict[str, str] = {
+    "auc": "AUC (c-statistic)",
+    "c_statistic": "c-statistic",
+    "brier": "Brier score",
+    "scaled_brier": "Scaled Brier score",
+    "calibration_intercept": "Calibration intercept (calibration-in-the-large)",
+    "calibration_slope": "Calibration slope",
+    "ici": "Integrated calibration index (ICI)",
+    "e50": "E50 (median absolute calibration error)",
+    "e90": "E90 (90th percentile of absolute calibration error)",
+    "emax": "Emax (largest absolute calibration error)",
+    "hosmer_lemeshow": "Hosmer–Lemeshow χ²",
+    "spiegelhalter_z": "Spiegelhalter z",
+    "oe_ratio": "Observed / expected events (O/E)",
+    "cox_snell_r2": "Cox–Snell R²",
+    "nagelkerke_r2": "Nagelkerke R²",
+    "prevalence": "Proportion with the outcome",
+    "mean_risk": "Mean predicted risk",
+    "sensitivity": "Sensitivity",
+    "specificity": "Specificity",
+    "ppv": "Positive predictive value",
+    "npv": "Negative predictive value",
+}
+"""Labels of the metric names we know; others get :func:`metric_label`'s fallback."""
+
+
+def metric_label(name: str) -> str:
+    """The label of a metric name; an unknown name becomes readable words."""
+    if name in METRIC_LABELS:
+        return METRIC_LABELS[name]
+    words = name.replace("_", " ").strip()
+    return words[:1].upper() + words[1:] if words else name
 
 
 @dataclass(frozen=True)

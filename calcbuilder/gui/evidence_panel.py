@@ -24,7 +24,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from ..calc.evidence_sets import TRUST_ORDER, EvidenceSet
+from ..calc.evidence_sets import TRUST_ORDER, EvidenceSet, metric_label
 from ..clinic.benefit import EVIDENCE_KIND_WORDS
 from ..clinic.session import ClinicSession
 from .figures import FigureBox
@@ -40,13 +40,18 @@ _METRICS = (
 )
 
 
+def _number(value: float) -> str:
+    """Three significant digits, but 0.000 rather than 2.58e-18 for a value that is zero."""
+    return f"{value:.3f}" if abs(value) < 0.0005 else f"{value:.3g}"
+
+
 def metric_text(metric: Mapping[str, Any] | None) -> str:
     """``"0.78 (0.74 to 0.81)"``; ``"not stated"`` when absent."""
     if not metric or metric.get("value") is None:
         return "not stated"
-    text = f"{metric['value']:.3g}"
+    text = _number(metric["value"])
     if metric.get("low") is not None and metric.get("high") is not None:
-        text += f" ({metric['low']:.3g} to {metric['high']:.3g})"
+        text += f" ({_number(metric['low'])} to {_number(metric['high'])})"
     return text.replace("-", "−")
 
 
@@ -60,7 +65,7 @@ def _set_lines(e: EvidenceSet) -> list[tuple[str, str]]:
              ("People", f"{e.n:,}, of whom {e.events:,} with the outcome")]
     lines += [(name, metric_text(e.metric(key))) for key, name in _METRICS]
     extra = sorted(set(e.raw.get("metrics", {})) - {k for k, _ in _METRICS})
-    lines += [(key.replace("_", " ").capitalize(), metric_text(e.metric(key))) for key in extra]
+    lines += [(metric_label(key), metric_text(e.metric(key))) for key in extra]
     return lines
 
 

@@ -19,6 +19,7 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
+from ..calc.evidence_sets import METRIC_LABELS, metric_label
 from ..calc.signing import TrustState
 
 __all__ = [
@@ -39,31 +40,6 @@ __all__ = [
 ]
 
 SYNTHETIC_MARK = "SYNTHETIC — NOT FOR CLINICAL USE"
-
-METRIC_LABELS: dict[str, str] = {
-    "auc": "AUC (c-statistic)",
-    "c_statistic": "c-statistic",
-    "brier": "Brier score",
-    "scaled_brier": "Scaled Brier score",
-    "calibration_intercept": "Calibration intercept (calibration-in-the-large)",
-    "calibration_slope": "Calibration slope",
-    "ici": "Integrated calibration index (ICI)",
-    "e50": "E50 (median absolute calibration error)",
-    "e90": "E90 (90th percentile of absolute calibration error)",
-    "emax": "Emax (largest absolute calibration error)",
-    "hosmer_lemeshow": "Hosmer–Lemeshow χ²",
-    "spiegelhalter_z": "Spiegelhalter z",
-    "oe_ratio": "Observed / expected events (O/E)",
-    "cox_snell_r2": "Cox–Snell R²",
-    "nagelkerke_r2": "Nagelkerke R²",
-    "prevalence": "Proportion with the outcome",
-    "mean_risk": "Mean predicted risk",
-    "sensitivity": "Sensitivity",
-    "specificity": "Specificity",
-    "ppv": "Positive predictive value",
-    "npv": "Negative predictive value",
-}
-"""Labels of the metric names we know; others get :func:`metric_label`'s fallback."""
 
 METRIC_IDEALS: dict[str, str] = {
     "auc": "1 (0.5 = chance)",
@@ -167,14 +143,6 @@ def integer(value: Any) -> str:
     if isinstance(value, int) or (isinstance(value, float) and value.is_integer()):
         return f"{int(value):,}"
     return str(value)
-
-
-def metric_label(name: str) -> str:
-    """The label of a metric name; an unknown name becomes readable words."""
-    if name in METRIC_LABELS:
-        return METRIC_LABELS[name]
-    words = name.replace("_", " ").strip()
-    return words[:1].upper() + words[1:] if words else name
 
 
 def interval_text(metric: Mapping[str, Any]) -> str:
