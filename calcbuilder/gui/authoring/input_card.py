@@ -191,6 +191,8 @@ class InputCard(QGroupBox):
             edit.setAccessibleName(f"Input {self.index + 1} {prefix} {word}")
             edit.setPlaceholderText(word)
             row.addWidget(edit)
+            if end == "low":
+                holder.setFocusProxy(edit)
         return holder
 
     def _developed_row(self) -> QWidget:
@@ -204,6 +206,8 @@ class InputCard(QGroupBox):
             edit.textEdited.connect(self._developed_edited)
             self.edits[f"developed_{end}"] = edit
             row.addWidget(edit)
+            if end == "low":
+                holder.setFocusProxy(edit)
         reset = QPushButton("Use the data's range")
         reset.setObjectName(f"{self.key}.developed_reset")
         reset.clicked.connect(self._developed_reset)
@@ -239,6 +243,8 @@ class InputCard(QGroupBox):
         row.setContentsMargins(0, 0, 0, 0)
         self.transform = QComboBox()
         self.transform.setObjectName(f"{self.key}.transform")
+        self.transform.setAccessibleName(f"Input {self.index + 1} transform")
+        holder.setFocusProxy(self.transform)
         self.transform.activated.connect(self._transform_chosen)
         row.addWidget(self.transform, 1)
         self.settings: dict[str, tuple[QLabel, QWidget]] = {}

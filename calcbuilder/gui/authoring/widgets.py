@@ -178,6 +178,7 @@ class PathField(QWidget):
         row.setContentsMargins(0, 0, 0, 0)
         row.addWidget(self.edit, 1)
         row.addWidget(self.button)
+        self.setFocusProxy(self.edit)
 
     def ask(self) -> None:
         name = type(self).asker(self, self.title, self.filter_text, self.save)
