@@ -91,6 +91,9 @@ def _register_assess(sub: argparse._SubParsersAction) -> None:
                    help="recipe re-run per resample (default: the one stored by fit)")
     p.add_argument("--external", action="store_true", help="DATA are not the development data")
     p.add_argument("--label", metavar="TEXT", help="label of an external or supplied set")
+    p.add_argument("--population", metavar="TEXT",
+                   help="who the external data describe (shown with the evidence)")
+    p.add_argument("--period", metavar="TEXT", help="when the external data were collected")
     p.add_argument("--risk-column", default="risk", metavar="COL",
                    help="predicted-risk column of --predictions (default 'risk')")
     p.add_argument("--drop-refused", action="store_true",
@@ -195,7 +198,8 @@ def _run_assess(args: argparse.Namespace, bar: Any) -> Any:
                                          band_boot=args.band_boot, **common)
     if args.external:
         return assess.assess_external(args.file, args.data, label=args.label,
-                                      band_boot=args.band_boot, **common)
+                                      band_boot=args.band_boot, population=args.population,
+                                      period=args.period, **common)
     return assess.assess_bootstrap(args.file, args.data, recipe=args.recipe,
                                    n_boot=args.bootstrap, **common)
 

@@ -151,6 +151,7 @@ def assess_external(calc: str | Path | Calculator, data: str | Path, *, label: s
                     outcome: str | None = None, event: Any = None, drop_refused: bool = False,
                     band_boot: int = 200, seed: int | None = None,
                     progress: Progress | None = None, output: str | Path | None = None,
+                    population: str | None = None, period: str | None = None,
                     ) -> AssessResult:
     """External validation: the calculator's risks against outcomes in other data.
 
@@ -170,6 +171,9 @@ def assess_external(calc: str | Path | Calculator, data: str | Path, *, label: s
         As in :func:`calcbuilder.evidence.metrics.evidence_set`.
     output : path, optional
         Where to write the new calculator (atomically).
+    population, period : str, optional
+        Who the external data describe and when they were collected; shown with the
+        evidence on the clinic form, the risk sheet and the evidence report.
     """
     c = _load(calc)
     data = Path(data)
@@ -178,6 +182,7 @@ def assess_external(calc: str | Path | Calculator, data: str | Path, *, label: s
     y, values, rows = read_outcome_and_inputs(c, table, out, drop_refused, recipe_columns(c))
     risk = score(c.model, values).risk
     dataset = {"name": label, "sha256": file_sha256(data), "excluded": rows.dropped}
+    dataset |= {k: v for k, v in (("population", population), ("period", period)) if v}
     ev = evidence_set(y, risk, kind="external", label=label, dataset=dataset,
                       settings=_provenance(data, out, rows), band_boot=band_boot, seed=seed,
                       progress=progress)

@@ -133,11 +133,14 @@ def test_assess_bootstrap_external_and_predictions(
     assert "--seed 4 reproduces these resamples" in out
     code, out, _ = run(capsys, "assess", tmp / "b.calc.json", "--data", demo["ext"], "--external",
                        "--label", "Demo Hospital B (synthetic)", "--band-boot", "5", "-o",
-                       tmp / "c.calc.json", "--json")
+                       tmp / "c.calc.json", "--json", "--population", "Adults 65+ (synthetic)",
+                       "--period", "2025")
     info = json.loads(out)
     assert code == 0
     assert info["evidence_id"] == "external-1"
     assert info["rows"]["used"] == 800
+    external = load_calculator(tmp / "c.calc.json").calculator.evidence[-1].raw["dataset"]
+    assert (external["population"], external["period"]) == ("Adults 65+ (synthetic)", "2025")
     y = make_cohort("external").clean["delirium"]
     pd.DataFrame({"delirium": y, "p": np.full(y.size, 0.2)}).to_csv(tmp / "p.csv", index=False)
     code, out, _ = run(capsys, "assess", tmp / "c.calc.json", "--predictions", tmp / "p.csv",
