@@ -207,7 +207,9 @@ def _develop(run: _Run) -> Calculator:
                             progress=run.progress)
     run.step("External validation on Demo Hospital B")
     ext = assess_external(boot.calculator, external, label=HOSPITAL_B, drop_refused=True,
-                          seed=seed)
+                          seed=seed, population="Synthetic adults aged 65+ having elective "
+                          "hip or knee replacement at a second hospital (older, sicker case-mix)",
+                          period="simulated")
     run.step("Recalibrating the intercept for Demo Hospital B")
     data = load_scored_data([ext.calculator], external,
                             resolve_outcome(None, None, [ext.calculator]))
