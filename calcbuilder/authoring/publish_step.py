@@ -131,7 +131,10 @@ class PublishStep:
         """Fill in file names below ``folder`` from the calculator title where none is set."""
         import re
 
-        stem = re.sub(r"[^a-z0-9]+", "-", title.lower()).strip("-")[:40] or "calculator"
+        stem = re.sub(r"[^a-z0-9]+", "-", title.lower()).strip("-")
+        if len(stem) > 40:
+            stem = stem[:40].rsplit("-", 1)[0]
+        stem = stem or "calculator"
         if self.output is None:
             self.output = folder / f"{stem}.calc.json"
         if self.report_path is None:

@@ -54,8 +54,8 @@ ABOUT: dict[str, Any] = {
                     "hip or knee replacement; synthetic, not for clinical use.",
     "population": "Adults aged 65 or over having elective hip or knee replacement (synthetic "
                   "Demo Hospital A cohort).",
-    "outcome": "Delirium within 7 days after surgery.",
-    "horizon": "7 days after surgery",
+    "outcome": "Delirium (an acute disturbance of attention and awareness)",
+    "horizon": "within 7 days after surgery",
     "exclusions": "Not for use in any real patient: the data and the model are synthetic.\n"
                   "Not for use in emergency surgery or hip fracture.",
     "authors": "calcbuilder demo",

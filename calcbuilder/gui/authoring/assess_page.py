@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import functools
 from collections.abc import Callable
-from pathlib import Path
 from typing import Any
 
 from PySide6.QtWidgets import (
@@ -371,6 +370,3 @@ class AssessPage(QWidget):
         self.fields.show(routed)
         self.problems.show_problems(routed.get("", []))
         self.show_state()
-
-    def set_path_for_tests(self, field: PathField, path: Path) -> None:
-        field.set_path(path, emit=True)

@@ -71,14 +71,14 @@ class DataPage(QWidget):
                                        self._event_chosen)
         row = grid_row(grid, 0, "Outcome &column", self.outcome,
                        self.fields.add("outcome.column", self.outcome))
-        row = grid_row(grid, row, "&Event value", self.event_value,
+        grid_row(grid, row, "&Event value", self.event_value,
                        self.fields.add("outcome.event", self.event_value))
         self.complete_case = QCheckBox("Leave out rows with a missing value (complete case; "
                                        "the number left out is recorded)")
         self.complete_case.setObjectName("completeCase")
         self.complete_case.toggled.connect(self._complete_case)
-        grid.addWidget(self.complete_case, row, 0, 1, 2)
         col.addLayout(grid)
+        col.addWidget(self.complete_case)
         col.addWidget(section("Columns"))
         col.addWidget(note("Tick a column to use it as a candidate predictor (Space ticks the "
                            "current row). Counts use the same reading rules as the fit."))

@@ -23,6 +23,7 @@ from PySide6.QtWidgets import (
     QLayout,
     QLineEdit,
     QPlainTextEdit,
+    QProgressBar,
     QPushButton,
     QScrollArea,
     QVBoxLayout,
@@ -31,9 +32,8 @@ from PySide6.QtWidgets import (
 
 from ..look import SYMBOL, box, heading, set_state, state_label
 
-__all__ = ["FieldSet", "PathField", "ProblemBox", "ask_path", "clear_layout", "drop", "grid_row",
-           "message_label",
-           "note", "page_scroll", "plain_text", "section"]
+__all__ = ["FieldSet", "JobPanel", "PathField", "ProblemBox", "ask_path", "clear_layout", "drop",
+           "grid_row", "message_label", "note", "page_scroll", "plain_text", "section"]
 
 FileAsker = Callable[[QWidget, str, str, bool], str]
 
@@ -233,3 +233,26 @@ def grid_row(grid: QGridLayout, row: int, text: str, widget: QWidget, message: Q
     inner.addWidget(message)
     grid.addWidget(holder, row, column + 1, 1, span)
     return row + 1
+
+
+class JobPanel(QWidget):
+    """What the worker is doing, how far it is, and Cancel (hidden while idle)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.setObjectName("jobPanel")
+        row = QHBoxLayout(self)
+        row.setContentsMargins(0, 0, 0, 0)
+        self.text = QLabel("")
+        self.text.setObjectName("jobText")
+        self.text.setWordWrap(True)
+        self.progress = QProgressBar()
+        self.progress.setObjectName("jobProgress")
+        self.progress.setAccessibleName("Progress of the running work")
+        self.cancel = QPushButton("Cance&l")
+        self.cancel.setObjectName("cancelJob")
+        self.cancel.setAccessibleName("Cancel the running work")
+        row.addWidget(self.text, 2)
+        row.addWidget(self.progress, 1)
+        row.addWidget(self.cancel)
+        self.hide()

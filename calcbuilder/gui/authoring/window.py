@@ -31,7 +31,6 @@ from PySide6.QtWidgets import (
     QListWidget,
     QMainWindow,
     QMessageBox,
-    QProgressBar,
     QPushButton,
     QSplitter,
     QStackedWidget,
@@ -49,7 +48,7 @@ from .data_page import DataPage
 from .decision_page import DecisionPage
 from .inputs_page import InputsPage
 from .publish_page import PublishPage
-from .widgets import ask_path
+from .widgets import JobPanel, ask_path
 from .worker import JobRunner
 
 __all__ = ["AuthoringWindow", "ask_unsaved_changes"]
@@ -144,24 +143,10 @@ class AuthoringWindow(QMainWindow):
         self.steps.setCurrentRow(0)
 
     def _job_panel(self) -> QWidget:
-        panel = QWidget()
-        panel.setObjectName("jobPanel")
-        row = QHBoxLayout(panel)
-        row.setContentsMargins(0, 0, 0, 0)
-        self.job_text = QLabel("")
-        self.job_text.setObjectName("jobText")
-        self.job_text.setWordWrap(True)
-        self.job_progress = QProgressBar()
-        self.job_progress.setObjectName("jobProgress")
-        self.job_progress.setAccessibleName("Progress of the running work")
-        self.cancel_button = QPushButton("Cance&l")
-        self.cancel_button.setObjectName("cancelJob")
-        self.cancel_button.setAccessibleName("Cancel the running work")
+        panel = JobPanel()
+        self.job_text, self.job_progress = panel.text, panel.progress
+        self.cancel_button = panel.cancel
         self.cancel_button.clicked.connect(self.cancel_job)
-        row.addWidget(self.job_text, 2)
-        row.addWidget(self.job_progress, 1)
-        row.addWidget(self.cancel_button)
-        panel.hide()
         self.job_panel = panel
         return panel
 
@@ -183,11 +168,9 @@ class AuthoringWindow(QMainWindow):
         for k, step in enumerate(STEPS):
             self._action(go, f"&{k + 1} {STEP_TITLES[step]}", functools.partial(self.go_to, k),
                          QKeySequence(f"Alt+{k + 1}"))
-        help_menu = self.menuBar().addMenu("&Help")
-        self._action(help_menu, "&About the workspace", lambda: self.tell(
+        self._action(self.menuBar().addMenu("&Help"), "&About the workspace", lambda: self.tell(
             "About", "calcbuilder authoring workspace: every number comes from the same "
-            "functions as the command line; the recipe it fits with is written beside the "
-            "project file."), None)
+            "functions as the command line; the recipe is written beside the project."), None)
 
     def _action(self, menu: Any, text: str, slot: Callable[[], Any],
                 key: QKeySequence | QKeySequence.StandardKey | None) -> QAction:
@@ -400,12 +383,9 @@ class AuthoringWindow(QMainWindow):
 
         for _ in range(3):
             QApplication.processEvents()
-        for page in self.pages:
-            for name in ("plots", "curve"):
-                figure = getattr(page, name, None)
-                if figure is not None:
-                    figure.flush()
-            if getattr(page, "preview", None) is not None:
-                page.preview.settle()
+        for figure in (self.page("assess").plots, self.page("decision").curve):
+            figure.flush()
+        if self.page("publish").preview is not None:
+            self.page("publish").preview.settle()
         for _ in range(6):
             QApplication.processEvents()
