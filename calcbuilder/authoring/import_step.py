@@ -111,6 +111,10 @@ class ImportStep:
                   for d in drafts]
         vectors = read_test_vectors(self.vectors, drafts) if self.vectors is not None else []
         about_out = dict(about)
+        if not about_out.get("released"):  # as for a recipe: blank means the day it is written
+            import datetime as dt
+
+            about_out["released"] = dt.date.today().isoformat()
         out: dict[str, Any] = {"cautions": list(cautions), "about": about_out,
                                "inputs": inputs, "decision": dict(decision),
                                "test_vectors": vectors}
