@@ -129,6 +129,9 @@ def test_data_to_signed_file_equals_the_command_line(
     assert published.report.read_bytes().startswith(b"%PDF")
     state = page.preview.findChild(QLabel, "signatureState").text()
     assert "verified" in state.lower()
+    click(qtbot, window, "previewWindowButton")
+    assert page.separate.isVisible()
+    assert page.separate.session.calculator.fingerprint == published.file_fingerprint
 
     (tmp_path / "pass.txt").write_text(PASS + "\n", "utf-8")
     cli = tmp_path / "cli"

@@ -50,6 +50,13 @@ def trusted_set(document: dict[str, Any] | None) -> dict[str, Any] | None:
     return None if found is None else found.to_dict()
 
 
+def _left_aligned(widget: QWidget) -> QHBoxLayout:
+    row = QHBoxLayout()
+    row.addWidget(widget)
+    row.addStretch(1)
+    return row
+
+
 class DecisionPage(QWidget):
     """Step 5 (objectName ``decisionPage``)."""
 
@@ -87,28 +94,41 @@ class DecisionPage(QWidget):
         self.rationale.textChanged.connect(self._rationale)
         grid_row(grid, row, "&Why this range (rationale)", self.rationale,
                  self.fields.add("decision.rationale", self.rationale))
-        col.addLayout(grid)
-        col.addWidget(section("Named risk bands (optional)"))
-        col.addWidget(note("Each band ends at its upper risk; the last ends at 1."))
-        col.addWidget(self.fields.add("decision.bands", None))
-        self.band_box = QVBoxLayout()
-        col.addLayout(self.band_box)
-        add = QPushButton("Add a risk &band")
-        add.setObjectName("addBand")
-        add.clicked.connect(self._add_band)
-        col.addWidget(add)
-        col.addWidget(section("Decision curve with the threshold"))
+        left = self._left(grid)
+        right = QVBoxLayout()
+        right.addWidget(section("Decision curve with the threshold"))
         self.curve = FigureBox("The decision curve appears once the model is fitted (step 3).",
                                name="decisionPreview", min_height=200, max_width=900)
-        col.addWidget(self.curve)
+        right.addWidget(self.curve)
         self.numbers = QLabel("")
         self.numbers.setObjectName("decisionNumbers")
         self.numbers.setWordWrap(True)
-        col.addWidget(self.numbers)
+        right.addWidget(self.numbers)
+        right.addStretch(1)
+        both = QHBoxLayout()
+        both.addLayout(left, 1)
+        both.addLayout(right, 1)
+        col.addLayout(both)
         col.addStretch(1)
         outer = QVBoxLayout(self)
         outer.setContentsMargins(0, 0, 0, 0)
         outer.addWidget(page_scroll(inner, "decisionScroll"))
+
+    def _left(self, grid: QGridLayout) -> QVBoxLayout:
+        """The fields and the risk bands."""
+        left = QVBoxLayout()
+        left.addLayout(grid)
+        left.addWidget(section("Named risk bands (optional)"))
+        left.addWidget(note("Each band ends at its upper risk; the last ends at 1."))
+        left.addWidget(self.fields.add("decision.bands", None))
+        self.band_box = QVBoxLayout()
+        left.addLayout(self.band_box)
+        add = QPushButton("Add a risk &band")
+        add.setObjectName("addBand")
+        add.clicked.connect(self._add_band)
+        left.addLayout(_left_aligned(add))
+        left.addStretch(1)
+        return left
 
     # -- edits ----------------------------------------------------------------------------------
 

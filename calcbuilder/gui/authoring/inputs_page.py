@@ -137,6 +137,7 @@ class InputsPage(QWidget):
     def _mode(self, mode: str) -> None:
         self.host.ws.source.mode = mode
         self.import_box.setVisible(mode != "fit")
+        self.pmml_event.setEnabled(mode == "pmml")
         self.host.changed()
 
     def _import_path(self, attr: str, path: Path | None) -> None:
@@ -193,6 +194,7 @@ class InputsPage(QWidget):
         ws = self.host.ws
         self.mode_buttons[ws.source.mode].setChecked(True)
         self.import_box.setVisible(ws.source.importing)
+        self.pmml_event.setEnabled(ws.source.mode == "pmml")
         for field, attr in ((self.source, "source"), (self.vectors, "vectors"),
                             (self.description, "description")):
             field.set_path(getattr(ws.source, attr))

@@ -74,6 +74,8 @@ class PublishPage(QWidget):
         self.ask_new_key: Callable[[QWidget, Path], NewKey | None] = ask_new_key
         self._temp = Path(tempfile.mkdtemp(prefix="calcbuilder-preview-"))
         self.preview: Any = None
+        self.separate: Any = None
+        self._shown: tuple[Path, Path | None] | None = None
         inner = QWidget()
         col = QVBoxLayout(inner)
         col.addWidget(section("Step 6 · Publish"))
@@ -140,7 +142,12 @@ class PublishPage(QWidget):
         self.publish_button = QPushButton("Sign and &publish")
         self.publish_button.setObjectName("publishButton")
         self.publish_button.clicked.connect(self.publish)
+        self.window_button = QPushButton("Open the preview in its own &window")
+        self.window_button.setObjectName("previewWindowButton")
+        self.window_button.setEnabled(False)
+        self.window_button.clicked.connect(self.preview_window)
         buttons.addWidget(self.preview_button)
+        buttons.addWidget(self.window_button)
         buttons.addWidget(self.publish_button)
         buttons.addStretch(1)
         return buttons
@@ -178,16 +185,27 @@ class PublishPage(QWidget):
 
     # -- preview --------------------------------------------------------------------------------
 
-    def _form(self, path: Path, public_key: Path | None) -> None:
+    def _clinic(self, public_key: Path | None, parent: QWidget | None) -> Any:
         from ...calc.keys import TrustedKeys
         from ..app import ClinicWindow
 
+        extra = (public_key,) if public_key is not None and public_key.is_file() else ()
+        trusted = TrustedKeys(self._temp / "no-trusted-keys", extra_files=extra)
+        return ClinicWindow(trusted=trusted, parent=parent)
+
+    def preview_window(self) -> None:
+        """The same file in the clinic form as a window of its own, at its usual size."""
+        if self._shown is None:
+            return
+        self.separate = self._clinic(self._shown[1], None)
+        self.separate.open_path(self._shown[0])
+        self.separate.show()
+
+    def _form(self, path: Path, public_key: Path | None) -> None:
         if self.preview is not None:
             self.preview_holder.removeWidget(self.preview)
             drop(self.preview)
-        extra = (public_key,) if public_key is not None and public_key.is_file() else ()
-        trusted = TrustedKeys(self._temp / "no-trusted-keys", extra_files=extra)
-        form = ClinicWindow(trusted=trusted, parent=self)
+        form = self._clinic(public_key, self)
         form.setWindowFlag(Qt.WindowType.Widget, True)
         form.menuBar().hide()
         for action in form.findChildren(QAction):  # its shortcuts stay inside the preview
@@ -197,6 +215,8 @@ class PublishPage(QWidget):
         self.preview_holder.addWidget(form)
         form.open_path(path)
         form.show()
+        self._shown = (path, public_key)
+        self.window_button.setEnabled(True)
         self.preview_note.setText(f"{path.name} opened in the clinic form below.")
 
     def show_preview(self) -> None:
@@ -326,4 +346,6 @@ class PublishPage(QWidget):
 
     def cleanup(self) -> None:
         """Remove the preview copies (the window calls this when closing)."""
+        if self.separate is not None:
+            self.separate.close()
         shutil.rmtree(self._temp, ignore_errors=True)
