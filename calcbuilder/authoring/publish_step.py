@@ -60,23 +60,10 @@ def sign_and_write(document: Mapping[str, Any], key: Ed25519PrivateKey, output: 
     SignatureError
         The signed text does not verify when read back (nothing written).
     """
-    from ..calc.atomic import atomic_write_text
-    from ..calc.document import Calculator
-    from ..calc.jsonio import dumps_pretty, parse_json
-    from ..calc.signing import TrustState, sign_document, verify_document
-    from ..errors import SignatureError
+    from ..calc.publish import sign_calculator_file
 
-    Calculator.from_dict(dict(document))
-    signed = sign_document(dict(document), key)
-    text = dumps_pretty(signed)
-    result = verify_document(parse_json(text, source=str(output)), None)
-    if result.state is not TrustState.UNKNOWN_SIGNER:
-        raise SignatureError(f"{output}: the signed text does not verify ({result.message}); "
-                             "nothing was written")
-    atomic_write_text(output, text)
-    section = signed["signature"]
-    return Published(output, result.file_fingerprint, section["key_fingerprint"],
-                     section["signed_at"])
+    done = sign_calculator_file(document, key, output, source=str(output))
+    return Published(output, done.file_fingerprint, done.key_fingerprint, done.signed_at)
 
 
 def write_report(published: Published, public_key: Path, report: Path, page: str

@@ -17,9 +17,7 @@ from typing import Any
 
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
-from ..calc.atomic import atomic_write_text
-from ..calc.canonical import split_signature
-from ..calc.jsonio import dumps_pretty, parse_json, read_json_file
+from ..calc.jsonio import read_json_file
 from ..calc.keys import (
     DEFAULT_KEY_NAME,
     UNENCRYPTED_WARNING,
@@ -33,7 +31,6 @@ from ..calc.keys import (
     public_key_label,
     save_key_pair,
 )
-from ..calc.signing import TrustState, sign_document, verify_document
 from ..errors import CalcFileError, SignatureError
 
 __all__ = ["register"]
@@ -185,40 +182,21 @@ def _cmd_untrust(args: argparse.Namespace) -> int:
 
 # -- sign ------------------------------------------------------------------------------------
 
-def _validate_before_signing(document: dict[str, Any], source: str) -> None:
-    """Refuse to sign anything but a valid calculator (schema, meaning, test vectors)."""
-    from ..calc.document import Calculator
-
-    try:
-        Calculator.from_dict(document)
-    except CalcFileError as exc:
-        raise CalcFileError(f"{source}: will not sign an invalid calculator file: {exc}") from exc
-
-
 def _cmd_sign(args: argparse.Namespace) -> int:
-    source = str(args.file)
+    from ..calc.publish import sign_calculator_file
+
     document = _read_document(args.file)
-    _validate_before_signing(document, source)
     private_key = _load_signing_key(args.key, args.passphrase_file)
-    _, old = split_signature(document)
-    signed = sign_document(document, private_key)
-    text = dumps_pretty(signed)
-    # Defensive: the text as written must read back to a document that verifies.
-    result = verify_document(parse_json(text, source=str(args.output)), None)
-    if result.state is not TrustState.UNKNOWN_SIGNER:
-        raise SignatureError(f"{args.output}: the signed text does not verify "
-                             f"({result.message}); nothing was written")
-    atomic_write_text(args.output, text)
-    section = signed["signature"]
+    done = sign_calculator_file(document, private_key, args.output, source=str(args.file))
     if args.json:
         return _print_json({"output": str(args.output), "file_fingerprint":
-                            result.file_fingerprint, "key_fingerprint":
-                            section["key_fingerprint"], "signed_at": section["signed_at"]})
-    if old is not None:
+                            done.file_fingerprint, "key_fingerprint": done.key_fingerprint,
+                            "signed_at": done.signed_at})
+    if done.replaced_signature:
         print("(the previous signature was replaced)")
     print(f"Signed calculator written to {args.output}")
-    print(f"file fingerprint: {result.file_fingerprint}")
-    print(f"key fingerprint:  {section['key_fingerprint']}")
+    print(f"file fingerprint: {done.file_fingerprint}")
+    print(f"key fingerprint:  {done.key_fingerprint}")
     return 0
 
 
