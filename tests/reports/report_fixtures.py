@@ -9,7 +9,7 @@ reclassification block against a simpler reference model, recalibrated,
 imported).
 
 The test-vector risks are computed by :func:`independent_risk`, a numpy
-transcription of the equation AS THE REPORT PRINTS IT (the spline written out
+re-implementation of the equation AS THE REPORT PRINTS IT (the spline written out
 term by term with its knots), not by calcbuilder's scoring; loading the file
 re-scores the vectors with calcbuilder and refuses any difference above 1e-9,
 so a file that loads proves the printed equation re-implements the model.

@@ -79,7 +79,7 @@ def _isolated_config(tmp_path, monkeypatch):
 
 
 def test_printed_equation_reproduces_calcbuilder_scoring(tmp_path):
-    """independent_risk is a numpy transcription of the equation as printed; it must equal
+    """independent_risk is a numpy re-implementation of the equation as printed; it must equal
     calcbuilder's scoring on many patients, including ages below, between and above the
     knots and beyond the truncation bounds (tolerance: floating-point rounding only)."""
     for kwargs in ({}, {"family": "survival_at_horizon", "recalibrated": True},
