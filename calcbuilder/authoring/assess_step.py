@@ -57,9 +57,9 @@ class EvidenceRow:
 def _metric_text(m: Mapping[str, Any] | None) -> str:
     if not m or m.get("value") is None:
         return "-"
-    text = f"{m['value']:.3f}"
+    text = f"{round(m['value'], 3) + 0.0:.3f}"  # + 0.0: never print -0.000
     if m.get("low") is not None and m.get("high") is not None:
-        text += f" ({m['low']:.3f} to {m['high']:.3f})"
+        text += f" ({round(m['low'], 3) + 0.0:.3f} to {round(m['high'], 3) + 0.0:.3f})"
     return text
 
 

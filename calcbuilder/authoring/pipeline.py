@@ -93,9 +93,9 @@ def _metric_line(ev: Mapping[str, Any], name: str, shown: str) -> str | None:
     m = ev.get("metrics", {}).get(name)
     if not m or m.get("value") is None:
         return None
-    text = f"{shown} {m['value']:.3f}"
+    text = f"{shown} {round(m['value'], 3) + 0.0:.3f}"  # + 0.0: never print -0.000
     if m.get("low") is not None and m.get("high") is not None:
-        text += f" ({m['low']:.3f} to {m['high']:.3f})"
+        text += f" ({round(m['low'], 3) + 0.0:.3f} to {round(m['high'], 3) + 0.0:.3f})"
     return text
 
 

@@ -404,5 +404,5 @@ class ClinicSession:
         share = ("fewer than 1%" if pct < 1 else "more than 99%" if pct > 99
                  else f"about {_half_up(pct)}%")
         name = self._cohort.raw["dataset"]["name"]
-        return (f"In the development data ({name}), {share} of patients had a lower estimated "
+        return (f"In the development data from {name}, {share} of patients had a lower estimated "
                 f"risk than {format_percent(result.risk, decimal_comma=self._decimal_comma)}.")
